@@ -1,0 +1,230 @@
+#include "common/env.h"
+
+#include <dirent.h>
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <cstring>
+#include <filesystem>
+#include <system_error>
+
+namespace tidemark {
+namespace {
+
+Status PosixError(const std::string& context, int err) {
+  std::string msg = context + ": " + std::strerror(err);
+  return Status::IOError(std::move(msg));
+}
+
+class PosixWritableFile final : public WritableFile {
+ public:
+  PosixWritableFile(std::string path, int fd) : path_(std::move(path)), fd_(fd) {}
+  ~PosixWritableFile() override {
+    if (fd_ >= 0) ::close(fd_);
+  }
+  Status Append(std::string_view data) override {
+    const char* p = data.data();
+    size_t left = data.size();
+    while (left > 0) {
+      const ssize_t n = ::write(fd_, p, left);
+      if (n < 0) {
+        if (errno == EINTR) continue;
+        return PosixError(path_ + "@" + std::to_string(size_) + ": write", errno);
+      }
+      p += n;
+      left -= static_cast<size_t>(n);
+      size_ += static_cast<uint64_t>(n);
+    }
+    return Status::Ok();
+  }
+  Status Sync() override {
+    if (::fdatasync(fd_) != 0) return PosixError(path_ + ": fsync", errno);
+    return Status::Ok();
+  }
+  Status Close() override {
+    if (fd_ < 0) return Status::Ok();
+    const int rc = ::close(fd_);
+    fd_ = -1;
+    if (rc != 0) return PosixError(path_ + ": close", errno);
+    return Status::Ok();
+  }
+  uint64_t size() const override { return size_; }
+
+ private:
+  std::string path_;
+  int fd_;
+  uint64_t size_ = 0;
+};
+
+}  // namespace
+
+Env* Env::Default() {
+  static Env* env = new Env();
+  return env;
+}
+
+Result<std::unique_ptr<WritableFile>> Env::NewWritableFile(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+  if (fd < 0) return PosixError(path + ": cannot create", errno);
+  return std::unique_ptr<WritableFile>(new PosixWritableFile(path, fd));
+}
+
+Status Env::Rename(const std::string& from, const std::string& to) {
+  if (::rename(from.c_str(), to.c_str()) != 0) {
+    return PosixError("rename " + from + " -> " + to, errno);
+  }
+  return Status::Ok();
+}
+
+Status Env::RemoveFile(const std::string& path) {
+  if (::unlink(path.c_str()) != 0 && errno != ENOENT) return PosixError(path + ": remove", errno);
+  return Status::Ok();
+}
+
+Status Env::RemoveTree(const std::string& path) {
+  std::error_code ec;
+  std::filesystem::remove_all(path, ec);
+  if (ec) return Status::IOError(path + ": remove: " + ec.message());
+  return Status::Ok();
+}
+
+Status Env::CreateDirs(const std::string& path) {
+  std::error_code ec;
+  std::filesystem::create_directories(path, ec);
+  if (ec) return Status::IOError(path + ": cannot create directory: " + ec.message());
+  return Status::Ok();
+}
+
+Status Env::SyncDir(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  if (fd < 0) return PosixError(path + ": open directory", errno);
+  const int rc = ::fsync(fd);
+  const int err = errno;
+  ::close(fd);
+  if (rc != 0) return PosixError(path + ": fsync directory", err);
+  return Status::Ok();
+}
+
+bool Env::FileExists(const std::string& path) {
+  struct stat st;
+  return ::stat(path.c_str(), &st) == 0;
+}
+
+Result<std::vector<std::string>> Env::ListDir(const std::string& path) {
+  DIR* d = ::opendir(path.c_str());
+  if (d == nullptr) return PosixError(path + ": cannot list directory", errno);
+  std::vector<std::string> names;
+  while (const dirent* e = ::readdir(d)) {
+    const std::string name = e->d_name;
+    if (name != "." && name != "..") names.push_back(name);
+  }
+  ::closedir(d);
+  return names;
+}
+
+Result<std::string> ReadFileToString(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) return PosixError(path + ": cannot open", errno);
+  std::string out;
+  char buf[1 << 16];
+  while (true) {
+    const ssize_t n = ::read(fd, buf, sizeof(buf));
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      const int err = errno;
+      ::close(fd);
+      return PosixError(path + "@" + std::to_string(out.size()) + ": read", err);
+    }
+    if (n == 0) break;
+    out.append(buf, static_cast<size_t>(n));
+  }
+  ::close(fd);
+  return out;
+}
+
+AtomicFileWriter::AtomicFileWriter(std::string path, Env* env)
+    : path_(std::move(path)), temp_path_(path_ + ".tmp." + std::to_string(::getpid())), env_(env) {}
+
+AtomicFileWriter::~AtomicFileWriter() {
+  if (!done_) Abandon();
+}
+
+Status AtomicFileWriter::Open() {
+  auto file = env_->NewWritableFile(temp_path_);
+  if (!file.ok()) {
+    status_ = file.status();
+    return status_;
+  }
+  file_ = std::move(file).value();
+  return Status::Ok();
+}
+
+Status AtomicFileWriter::Append(std::string_view data) {
+  if (!status_.ok()) return status_;
+  assert(file_ && "AtomicFileWriter::Open must succeed before Append");
+  status_ = file_->Append(data);
+  return status_;
+}
+
+uint64_t AtomicFileWriter::size() const { return file_ ? file_->size() : 0; }
+
+Status AtomicFileWriter::Commit() {
+  if (!status_.ok()) {
+    Abandon();
+    return status_;
+  }
+  assert(file_);
+  Status s = file_->Sync();
+  if (s.ok()) s = file_->Close();
+  if (s.ok()) s = env_->Rename(temp_path_, path_);
+  if (s.ok()) s = env_->SyncDir(DirName(path_));
+  if (!s.ok()) {
+    status_ = s;
+    Abandon();
+    return s;
+  }
+  file_.reset();
+  done_ = true;
+  return Status::Ok();
+}
+
+void AtomicFileWriter::Abandon() {
+  if (done_) return;
+  if (file_) {
+    (void)file_->Close();
+    file_.reset();
+  }
+  (void)env_->RemoveFile(temp_path_);
+  done_ = true;
+}
+
+Status WriteFileAtomically(const std::string& path, std::string_view contents, Env* env) {
+  AtomicFileWriter w(path, env);
+  TM_RETURN_IF_ERROR(w.Open());
+  TM_RETURN_IF_ERROR(w.Append(contents));
+  return w.Commit();
+}
+
+std::string DirName(const std::string& path) {
+  const size_t slash = path.find_last_of('/');
+  if (slash == std::string::npos) return ".";
+  if (slash == 0) return "/";
+  return path.substr(0, slash);
+}
+
+std::string BaseName(const std::string& path) {
+  const size_t slash = path.find_last_of('/');
+  return slash == std::string::npos ? path : path.substr(slash + 1);
+}
+
+std::string JoinPath(std::string_view a, std::string_view b) {
+  if (a.empty()) return std::string(b);
+  std::string out(a);
+  if (out.back() != '/') out += '/';
+  out += b;
+  return out;
+}
+
+}  // namespace tidemark

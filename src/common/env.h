@@ -1,0 +1,96 @@
+// Env: the thin seam through which tidemark makes the OS calls that write files
+// (create, append, fsync, rename, remove, mkdir), so that tests can inject
+// failures (disk full, a rename that fails mid-build) and check that no
+// half-written output ever becomes visible.
+//
+// Thread safety: Env::Default() is thread-safe. A WritableFile is used by one
+// thread at a time.
+#ifndef TIDEMARK_SRC_COMMON_ENV_H_
+#define TIDEMARK_SRC_COMMON_ENV_H_
+
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "tidemark/status.h"
+
+namespace tidemark {
+
+class WritableFile {
+ public:
+  virtual ~WritableFile() = default;
+  virtual Status Append(std::string_view data) = 0;
+  virtual Status Sync() = 0;
+  virtual Status Close() = 0;
+  virtual uint64_t size() const = 0;
+};
+
+class Env {
+ public:
+  virtual ~Env() = default;
+  /// The process-wide POSIX implementation. Never deleted.
+  static Env* Default();
+
+  /// Creates or truncates `path` for writing.
+  virtual Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path);
+  virtual Status Rename(const std::string& from, const std::string& to);
+  virtual Status RemoveFile(const std::string& path);
+  /// Removes a directory tree; OK if it does not exist.
+  virtual Status RemoveTree(const std::string& path);
+  /// mkdir -p.
+  virtual Status CreateDirs(const std::string& path);
+  /// fsync on a directory, so a rename inside it survives a crash.
+  virtual Status SyncDir(const std::string& path);
+  virtual bool FileExists(const std::string& path);
+  virtual Result<std::vector<std::string>> ListDir(const std::string& path);
+};
+
+/// Reads a whole (small) file. Errors name the path.
+Result<std::string> ReadFileToString(const std::string& path);
+
+/// Writes `path` atomically: a temp file `<path>.tmp.<pid>` in the same directory is
+/// written, fsync'ed and renamed over `path`; the directory is then fsync'ed. On any
+/// failure (or if Commit is never called) the temp file is removed and `path` is
+/// untouched.
+class AtomicFileWriter {
+ public:
+  /// REQUIRES: `env` outlives the writer.
+  explicit AtomicFileWriter(std::string path, Env* env = Env::Default());
+  ~AtomicFileWriter();  // Abandons an uncommitted file.
+  AtomicFileWriter(const AtomicFileWriter&) = delete;
+  AtomicFileWriter& operator=(const AtomicFileWriter&) = delete;
+
+  Status Open();
+  Status Append(std::string_view data);
+  uint64_t size() const;
+  Status Commit();
+  void Abandon();
+
+  const std::string& path() const { return path_; }
+  const std::string& temp_path() const { return temp_path_; }
+
+ private:
+  std::string path_;
+  std::string temp_path_;
+  Env* env_;
+  std::unique_ptr<WritableFile> file_;
+  Status status_;
+  bool done_ = false;
+};
+
+/// Convenience: atomically replaces `path` with `contents`.
+Status WriteFileAtomically(const std::string& path, std::string_view contents,
+                           Env* env = Env::Default());
+
+/// Directory part of a path ("." when there is none).
+std::string DirName(const std::string& path);
+/// Last component of a path.
+std::string BaseName(const std::string& path);
+/// a + "/" + b without doubling slashes.
+std::string JoinPath(std::string_view a, std::string_view b);
+
+}  // namespace tidemark
+
+#endif  // TIDEMARK_SRC_COMMON_ENV_H_
