@@ -1,0 +1,82 @@
+// Tokenizer and n-gram fingerprints: the one definition of what is matched.
+//
+// Text rules version TextOptions::kRulesVersion (docs/text_rules.md):
+//   * Unicode NFKC_Casefold (UAX #15 + the NFKC_CF property of
+//     DerivedNormalizationProps.txt) via utf8proc, with an ASCII fast path that
+//     gives byte-identical results; invalid UTF-8 bytes become U+FFFD and are counted.
+//   * Letters (L*), marks (M*) and digits/numbers (N*) form words; everything else
+//     (punctuation, symbols, separators, controls) separates words.
+//   * Each Han, Hiragana, Katakana or Hangul character is a token of its own.
+//   * Optional accent stripping (TextOptions::strip_accents) removes nonspacing marks
+//     after canonical decomposition.
+//   * Every token keeps the byte range [begin, end) of the ORIGINAL text it came from.
+//   * Token hash = XXH3-64(normalized token UTF-8, seed); n-gram fingerprint =
+//     XXH3-64 over the n token hashes as little-endian uint64, seed.
+//
+// Thread safety: a Tokenizer keeps scratch buffers; use one per thread. The free
+// functions are pure.
+#ifndef TIDEMARK_INCLUDE_TIDEMARK_TOKENIZER_H_
+#define TIDEMARK_INCLUDE_TIDEMARK_TOKENIZER_H_
+
+#include <cstdint>
+#include <memory>
+#include <span>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "tidemark/text_options.h"
+
+namespace tidemark {
+
+/// One token: where it came from in the original text, and its hash.
+struct Token {
+  uint32_t begin = 0;  ///< byte offset of the first original byte
+  uint32_t end = 0;    ///< one past the last original byte
+  uint64_t hash = 0;   ///< XXH3-64 of the normalized token, TextOptions::seed
+};
+
+class Tokenizer {
+ public:
+  /// REQUIRES: options.Validate().ok().
+  explicit Tokenizer(const TextOptions& options);
+  ~Tokenizer();
+  Tokenizer(const Tokenizer&) = delete;
+  Tokenizer& operator=(const Tokenizer&) = delete;
+
+  /// Replaces *tokens with the tokens of `text`. REQUIRES: text.size() < 4 GiB.
+  void Tokenize(std::string_view text, std::vector<Token>* tokens);
+
+  /// As Tokenize, and also fills *normalized with each token's normalized UTF-8
+  /// (for display: `tidemark tokens`).
+  void TokenizeWithText(std::string_view text, std::vector<Token>* tokens,
+                        std::vector<std::string>* normalized);
+
+  /// Invalid UTF-8 bytes replaced by U+FFFD since construction.
+  uint64_t invalid_utf8_bytes() const;
+
+  const TextOptions& options() const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+/// XXH3-64 of a normalized token.
+uint64_t HashToken(std::string_view normalized_token, uint64_t seed);
+
+/// Fingerprint of the n-gram whose token hashes are hashes[0..n).
+uint64_t FingerprintNgram(const uint64_t* hashes, int n, uint64_t seed);
+
+/// Replaces *out with the fingerprint of every n-gram: (*out)[i] covers
+/// tokens[i .. i+n). Empty when tokens.size() < n.
+void ComputeFingerprints(std::span<const Token> tokens, const TextOptions& options,
+                         std::vector<uint64_t>* out);
+
+/// Normalizes a whole string with the text rules (no tokenization): NFKC_Casefold,
+/// plus accent stripping if asked. For tests and display.
+std::string NormalizeText(std::string_view text, const TextOptions& options);
+
+}  // namespace tidemark
+
+#endif  // TIDEMARK_INCLUDE_TIDEMARK_TOKENIZER_H_
