@@ -91,6 +91,7 @@ struct ProbeOptions {
 
 struct BenchmarkResult {
   BenchmarkSpec spec;
+  std::vector<Rule> rules;             ///< the rules applied; ItemResult::verdicts follow them
   std::vector<ItemResult> items;       ///< in file order (sampled subset in sample mode)
   uint64_t population = 0;             ///< items in the file (before sampling)
   SkipStats skips;
