@@ -7,6 +7,7 @@
 
 #include <cstdint>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "tidemark/index.h"
@@ -63,6 +64,36 @@ struct Rule {
 /// Built-in presets by name: "gpt3" (any hit, n=13), "palm" (hit fraction >= 0.7,
 /// n=8), "llama2" (coverage >= 0.8 over spans >= 10 tokens, n any). NotFound otherwise.
 Result<Rule> PresetRule(const std::string& name);
+
+/// A preset name, or a user rule "[NAME=]KIND>=VALUE[,span=K]" with KIND one of
+/// "fraction" (hit fraction, 0..1), "coverage" (token coverage, 0..1; span=K sets
+/// min_span), "run" (longest run in tokens, >= 1), e.g. "strict=coverage>=0.5,span=10".
+/// InvalidArgument quoting the text when it does not parse.
+Result<Rule> ParseRule(std::string_view spec);
+
+/// InvalidArgument when the rule was published for another n than the index's:
+/// "rule 'palm' needs 8-grams; this index was built with n=13; rebuild with
+/// `tidemark index build -n 8`". OK when rule.required_n is 0 or equals index_n.
+Status CheckRuleN(const Rule& rule, int index_n);
+
+/// Share of the tokens inside matched spans of at least `min_span` tokens (the
+/// union of the spans, so overlapping spans count once); 0 when tokens == 0.
+double SpanCoverage(const OverlapResult& overlap, uint32_t min_span);
+
+/// The rule's verdict. kTooShort whenever overlap.ngrams == 0, whatever the rule.
+Verdict EvaluateRule(const Rule& rule, const OverlapResult& overlap);
+
+/// Touvron et al. 2023 (Llama 2, App. A.6) bins by token coverage over matched spans
+/// of >= 10 tokens: "clean" < 20%, "not clean" >= 20%, "not dirty" < 80%, "dirty"
+/// >= 80%. The four published bins overlap; these three disjoint classes make them:
+/// clean = kClean; not clean = kMixed + kDirty; not dirty = kClean + kMixed;
+/// dirty = kDirty.
+enum class Llama2Bin { kTooShort, kClean, kMixed, kDirty };
+inline constexpr uint32_t kLlama2MinSpan = 10;
+inline constexpr double kLlama2CleanBelow = 0.2;
+inline constexpr double kLlama2DirtyFrom = 0.8;
+Llama2Bin ClassifyLlama2(const OverlapResult& overlap);
+std::string_view Llama2BinName(Llama2Bin bin);  // "too_short", "clean", "mixed", "dirty"
 
 struct ItemResult {
   std::string id;
