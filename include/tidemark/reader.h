@@ -100,6 +100,21 @@ struct DetectedFormat {
 };
 Result<DetectedFormat> DetectFormat(const std::string& path, const ReadOptions& options);
 
+/// True for formats BlockReader/BlockParser serve: JSONL, and text with
+/// ReadOptions::text_lines. Other formats are read with RecordReader.
+bool IsLineOriented(const DetectedFormat& format, const ReadOptions& options);
+
+/// OK, or InvalidArgument naming the bad option (no fields, a JSON Pointer with a
+/// bad "~" escape, a zero max_record_bytes). The readers' Open calls it.
+Status ValidateReadOptions(const ReadOptions& options);
+
+/// Largest .json (array) input, decompressed: such files are loaded whole, so they
+/// are meant for benchmarks; a larger one is a BadInput error (use JSON Lines).
+inline constexpr uint64_t kMaxJsonArrayBytes = 1ull << 30;
+
+/// Stable names: "jsonl", "json", "csv", "text", "auto".
+std::string_view InputFormatName(InputFormat format);
+
 /// Serial, record-at-a-time reader for any supported format.
 class RecordReader {
  public:
