@@ -17,6 +17,7 @@ void SetHandler(Handler handler);
 
 // One registration function per cmd_<name>.cc; keep alphabetical.
 // (added as subcommands land)
+void RegisterClean(CLI::App& app);
 
 }  // namespace tidemark::cli
 
