@@ -37,7 +37,7 @@ class CsvReader final : public RecordReader {
     }
     if (!row.problem.empty()) {
       return Status::BadInput(SkipMessage(WhereLine(path_, row.line),
-                                          "bad CSV header: " + row.problem, row.buf));
+                                          "bad CSV header: " + row.problem, RowExcerpt(row)));
     }
     std::unordered_map<std::string, size_t> by_name;
     std::string names;
@@ -88,7 +88,7 @@ class CsvReader final : public RecordReader {
                                                 "CSV row too long (limit " +
                                                     std::to_string(options_.max_record_bytes) +
                                                     " bytes)",
-                                                row_.buf),
+                                                RowExcerpt(row_)),
                                     &skips_));
         continue;
       }
@@ -98,7 +98,7 @@ class CsvReader final : public RecordReader {
       }
       if (!row_.problem.empty()) {
         TM_RETURN_IF_ERROR(NoteSkip(options_, SkipReason::kBadCsvRow,
-                                    SkipMessage(where, "bad CSV row: " + row_.problem, row_.buf),
+                                    SkipMessage(where, "bad CSV row: " + row_.problem, RowExcerpt(row_)),
                                     &skips_));
         continue;
       }
@@ -146,6 +146,16 @@ class CsvReader final : public RecordReader {
     uint64_t line = 0;
     uint64_t offset = 0;
   };
+
+  // The row's fields joined with ',' again (unescaped), for messages.
+  static std::string RowExcerpt(const Row& row) {
+    std::string out;
+    for (size_t i = 0; i < row.ends.size() && out.size() < 100; ++i) {
+      if (i > 0) out += ',';
+      out += FieldOf(row, i).substr(0, 100);
+    }
+    return out;
+  }
 
   static std::string_view FieldOf(const Row& row, size_t i) {
     const size_t begin = i == 0 ? 0 : row.ends[i - 1];

@@ -145,17 +145,14 @@ class JsonArrayReader final : public RecordReader {
       : path_(std::move(path)), source_(std::move(source)), options_(options),
         parser_(options_) {}
 
-  Status Load() {
+  Status Load(bool compressed) {
     uint64_t total = 0;
+    if (!compressed && source_->disk_bytes_total() > kMaxJsonArrayBytes) {
+      return TooBig(source_->disk_bytes_total());
+    }
     TM_ASSIGN_OR_RETURN(const bool fits,
                         ReadAllUpTo(source_.get(), kMaxJsonArrayBytes, &buf_, &total));
-    if (!fits) {
-      return Status::BadInput(path_ + ": " + std::to_string(total) +
-                              " bytes is over the limit of " +
-                              std::to_string(kMaxJsonArrayBytes) +
-                              " bytes for a .json array file (it is loaded whole); "
-                              "convert it to JSON Lines (.jsonl)");
-    }
+    if (!fits) return TooBig(total);
     const size_t n = buf_.size();
     buf_.append(kParsePadding, ' ');
     buf_.resize(n);
@@ -196,6 +193,13 @@ class JsonArrayReader final : public RecordReader {
   uint64_t disk_bytes_read() const override { return source_->disk_bytes_read(); }
 
  private:
+  Status TooBig(uint64_t bytes) const {
+    return Status::BadInput(path_ + ": " + std::to_string(bytes) +
+                            " bytes is over the limit of " + std::to_string(kMaxJsonArrayBytes) +
+                            " bytes for a .json array file (it is loaded whole); "
+                            "convert it to JSON Lines (.jsonl)");
+  }
+
   Status Error(size_t at, std::string_view what) const {
     return Status::BadInput(path_ + "@" + std::to_string(at) + ": " + std::string(what) +
                             ": '" + ClipExcerpt(std::string_view(buf_).substr(at, 40)) +
@@ -307,7 +311,7 @@ Result<std::unique_ptr<RecordReader>> RecordReader::Open(const std::string& path
       return std::unique_ptr<RecordReader>(new WholeTextReader(path, std::move(source), options));
     case InputFormat::kJsonArray: {
       auto reader = std::make_unique<JsonArrayReader>(path, std::move(source), options);
-      TM_RETURN_IF_ERROR(reader->Load());
+      TM_RETURN_IF_ERROR(reader->Load(detected.compression != Compression::kNone));
       return std::unique_ptr<RecordReader>(std::move(reader));
     }
     case InputFormat::kCsv: return OpenCsvReader(path, std::move(source), options);
