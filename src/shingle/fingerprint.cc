@@ -5,6 +5,19 @@
 #include "tidemark/tokenizer.h"
 
 namespace tidemark {
+namespace {
+
+template <int kN>
+[[gnu::flatten, gnu::noinline]] void FingerprintWindows(uint64_t* h, size_t count, uint64_t seed) {
+  for (size_t i = 0; i < count; ++i) h[i] = shingle::HashNgram(h + i, kN, seed);
+}
+
+template <int kN>
+[[gnu::flatten, gnu::noinline]] void FingerprintWindowsSeed0(uint64_t* h, size_t count) {
+  for (size_t i = 0; i < count; ++i) h[i] = shingle::HashNgram(h + i, kN, 0);
+}
+
+}  // namespace
 
 uint64_t HashToken(std::string_view normalized_token, uint64_t seed) {
   return shingle::HashBytes(normalized_token.data(), normalized_token.size(), seed);
@@ -15,7 +28,7 @@ uint64_t FingerprintNgram(const uint64_t* hashes, int n, uint64_t seed) {
   return shingle::HashNgram(hashes, n, seed);
 }
 
-void ComputeFingerprints(std::span<const Token> tokens, const TextOptions& options,
+[[gnu::flatten]] void ComputeFingerprints(std::span<const Token> tokens, const TextOptions& options,
                          std::vector<uint64_t>* out) {
   const size_t n = static_cast<size_t>(options.ngram);
   assert(options.ngram >= TextOptions::kMinNgram && options.ngram <= TextOptions::kMaxNgram);
@@ -27,7 +40,24 @@ void ComputeFingerprints(std::span<const Token> tokens, const TextOptions& optio
   uint64_t* h = out->data();
   for (size_t i = 0; i < tokens.size(); ++i) h[i] = tokens[i].hash;
   const size_t count = tokens.size() - n + 1;
-  for (size_t i = 0; i < count; ++i) h[i] = shingle::HashNgram(h + i, options.ngram, options.seed);
+  // A compile-time n lets the compiler drop XXH3's length dispatch; 13 is the default
+  // and 8 the other published choice (docs/text_rules.md).
+  // A compile-time n (and seed 0, the default) lets the compiler drop XXH3's length
+  // dispatch and fold the secret into constants; 13 is the default and 8 the other
+  // published choice (docs/text_rules.md).
+  const uint64_t seed = options.seed;
+  switch (options.ngram) {
+    case 13:
+      seed == 0 ? FingerprintWindowsSeed0<13>(h, count) : FingerprintWindows<13>(h, count, seed);
+      break;
+    case 8:
+      seed == 0 ? FingerprintWindowsSeed0<8>(h, count) : FingerprintWindows<8>(h, count, seed);
+      break;
+    default: {
+      const int n_local = options.ngram;  // locals: stores through h cannot change them
+      for (size_t i = 0; i < count; ++i) h[i] = shingle::HashNgram(h + i, n_local, seed);
+    }
+  }
   out->resize(count);
 }
 

@@ -8,6 +8,9 @@
 // a cluster with it (e + U+0301 -> é), so the fast path takes back its last
 // character in that case and the cluster path handles it.
 #include <cassert>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 #include <limits>
 
 #include "normalize/char_class.h"
@@ -38,10 +41,31 @@ struct AsciiTables {
 };
 constexpr AsciiTables kAscii;
 
+#ifdef __SSE2__
+// The 16 bytes of v lower-cased (A-Z only), and in *word_mask bit k set iff byte k is
+// an ASCII letter or digit. Unsigned range checks as signed compares after a shift by
+// 0x80 (SSE2 has only signed byte compares).
+inline __m128i LowerAsciiWordBytes(__m128i v, uint32_t* word_mask) {
+  const __m128i upper = _mm_cmplt_epi8(_mm_add_epi8(v, _mm_set1_epi8(static_cast<char>(0x80 - 'A'))),
+                                       _mm_set1_epi8(static_cast<char>(0x80 + 26)));
+  const __m128i lower_v = _mm_or_si128(v, _mm_and_si128(upper, _mm_set1_epi8(0x20)));
+  const __m128i letter = _mm_cmplt_epi8(
+      _mm_add_epi8(lower_v, _mm_set1_epi8(static_cast<char>(0x80 - 'a'))),
+      _mm_set1_epi8(static_cast<char>(0x80 + 26)));
+  const __m128i digit = _mm_cmplt_epi8(_mm_add_epi8(v, _mm_set1_epi8(static_cast<char>(0x80 - '0'))),
+                                       _mm_set1_epi8(static_cast<char>(0x80 + 10)));
+  *word_mask = static_cast<uint32_t>(_mm_movemask_epi8(_mm_or_si128(letter, digit)));
+  return lower_v;
+}
+#endif
+
 // The tokenizer proper; Tokenizer::Impl wraps it, the testing hook uses it directly.
 struct TokenizerCore {
   explicit TokenizerCore(const TextOptions& o)
-      : options(o), normalizer(normalize::NormalForm::kNfkcCasefold, o.strip_accents), buf(64) {}
+      : options(o),
+        normalizer(normalize::NormalForm::kNfkcCasefold, o.strip_accents),
+        buf(64),
+        out(256) {}
 
   template <bool kWithText, bool kAsciiFastPath = true>
   void Run(std::string_view text, std::vector<Token>* tokens, std::vector<std::string>* normalized);
@@ -49,20 +73,17 @@ struct TokenizerCore {
   TextOptions options;
   normalize::Normalizer normalizer;
   uint64_t invalid_bytes = 0;
-  std::vector<char> buf;  // normalized UTF-8 of the token being built
+  std::vector<char> buf;   // normalized UTF-8 of the token being built
+  std::vector<Token> out;  // tokens, copied to the caller's vector at the end
 };
 
-}  // namespace
-
-struct Tokenizer::Impl : TokenizerCore {
-  using TokenizerCore::TokenizerCore;
-};
-
+// The loop keeps its state in locals (not in *tokens or members), so that stores
+// through the char buffer, which may alias anything, do not force reloads.
+// flatten: inline XXH3 (the hash of a short token is a few instructions).
 template <bool kWithText, bool kAsciiFastPath>
-void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
-                          std::vector<std::string>* normalized) {
+[[gnu::flatten]] void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
+                                         std::vector<std::string>* normalized) {
   assert(text.size() < std::numeric_limits<uint32_t>::max());
-  tokens->clear();
   if constexpr (kWithText) normalized->clear();
   normalizer.Reset();
   const auto* s = reinterpret_cast<const unsigned char*>(text.data());
@@ -70,21 +91,32 @@ void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
   const uint64_t seed = options.seed;
   char* b = buf.data();
   size_t cap = buf.size();
-  size_t len = 0;         // bytes in b
-  bool in_token = false;  // a token is being built
+  size_t len = 0;          // bytes in b
+  Token* o = out.data();
+  size_t count = 0;        // tokens in o
+  size_t ocap = out.size();
+  bool in_token = false;   // a token is being built in b
   bool ideograph = false;  // ... and it is a single-ideograph token
   uint32_t tb = 0, te = 0;  // its original byte span
 
   auto reserve = [&](size_t more) {
-    if (len + more > cap) {
+    if (len + more > cap) [[unlikely]] {
       buf.resize(std::max(2 * cap, len + more));
       b = buf.data();
       cap = buf.size();
     }
   };
+  auto push = [&](uint32_t begin, uint32_t end, const char* p, size_t size) {
+    if (count == ocap) [[unlikely]] {
+      out.resize(2 * ocap);
+      o = out.data();
+      ocap = out.size();
+    }
+    o[count++] = Token{begin, end, shingle::HashBytes(p, size, seed)};
+    if constexpr (kWithText) normalized->emplace_back(p, size);
+  };
   auto emit = [&] {
-    tokens->push_back(Token{tb, te, shingle::HashBytes(b, len, seed)});
-    if constexpr (kWithText) normalized->emplace_back(b, len);
+    push(tb, te, b, len);
     in_token = false;
     len = 0;
   };
@@ -105,15 +137,68 @@ void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
     }
     if (kind == kWordByte) {
       if (in_token && ideograph) emit();
+#ifdef __SSE2__
+      if (!in_token && i + 16 <= n) {
+        // The common case: words of at most 15 bytes, each ending at an ASCII
+        // separator, hashed straight from a register-sized lower-cased copy, one after
+        // the other while they last.
+        bool general = false;
+        do {
+          const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(s + i));
+          uint32_t word_mask;
+          alignas(16) char lowered[32];  // 16 used; the rest quiets -Warray-bounds in XXH3
+          _mm_store_si128(reinterpret_cast<__m128i*>(lowered), LowerAsciiWordBytes(v, &word_mask));
+          const auto high_mask = static_cast<uint32_t>(_mm_movemask_epi8(v));
+          const auto k = static_cast<uint32_t>(__builtin_ctz(~word_mask));  // word length
+          if (k == 16 || ((high_mask >> k) & 1) != 0) {
+            general = true;  // a long word, or one that runs into a non-ASCII character
+            break;
+          }
+          push(static_cast<uint32_t>(i), static_cast<uint32_t>(i + k), lowered, k);
+          // The separators after it: skip to the next word or non-ASCII byte.
+          const uint32_t next = (word_mask | high_mask) & ~((2u << k) - 1);
+          if (next == 0) {
+            i += 16;
+            break;
+          }
+          const auto c = static_cast<uint32_t>(__builtin_ctz(next));
+          i += c;
+          if ((high_mask >> c) & 1) break;
+        } while (i + 16 <= n);
+        if (!general) continue;
+      }
+#endif
+      size_t j = i;
       if (!in_token) {
         in_token = true;
         ideograph = false;
         tb = static_cast<uint32_t>(i);
       }
-      size_t j = i + 1;
-      while (j < n && kAscii.kind[s[j]] == kWordByte) ++j;
-      reserve(j - i);
-      for (size_t k = i; k < j; ++k) b[len++] = kAscii.lower[s[k]];
+#ifdef __SSE2__
+      // 16 bytes at a time: lower-case them into the token buffer and stop at the
+      // first byte that is not an ASCII letter or digit.
+      while (j + 16 <= n) {
+        reserve(16);
+        const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(s + j));
+        uint32_t word_mask;
+        _mm_storeu_si128(reinterpret_cast<__m128i*>(b + len), LowerAsciiWordBytes(v, &word_mask));
+        if (word_mask != 0xFFFF) {
+          const auto k = static_cast<size_t>(__builtin_ctz(~word_mask));
+          len += k;
+          j += k;
+          goto word_done;
+        }
+        len += 16;
+        j += 16;
+      }
+#endif
+      while (j < n && kAscii.kind[s[j]] == kWordByte) {
+        reserve(1);
+        b[len++] = kAscii.lower[s[j++]];
+      }
+#ifdef __SSE2__
+    word_done:
+#endif
       te = static_cast<uint32_t>(j);
       i = j;
       continue;
@@ -124,6 +209,9 @@ void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
     if (i > fast_from) {
       start = i - 1;
       if (kAscii.kind[s[start]] == kWordByte) {
+        // (The direct path above never ends a word at a non-ASCII byte, so the word
+        // is still open here.)
+        assert(in_token && !ideograph);
         --len;
         te = static_cast<uint32_t>(start);
         if (len == 0) in_token = false;
@@ -169,7 +257,14 @@ void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
     fast_from = end;
   }
   if (in_token) emit();
+  tokens->assign(o, o + count);
 }
+
+}  // namespace
+
+struct Tokenizer::Impl : TokenizerCore {
+  using TokenizerCore::TokenizerCore;
+};
 
 Tokenizer::Tokenizer(const TextOptions& options) : impl_(std::make_unique<Impl>(options)) {
   assert(options.Validate().ok());
