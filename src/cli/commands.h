@@ -18,6 +18,7 @@ void SetHandler(Handler handler);
 // One registration function per cmd_<name>.cc; keep alphabetical.
 // (added as subcommands land)
 void RegisterClean(CLI::App& app);
+void RegisterEvidence(CLI::App& app);
 
 }  // namespace tidemark::cli
 

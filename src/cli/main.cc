@@ -30,6 +30,7 @@ int main(int argc, char** argv) {
 
   // Subcommands register here (see commands.h).
   RegisterClean(app);
+  RegisterEvidence(app);
 
   try {
     app.parse(argc, argv);
