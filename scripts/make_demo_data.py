@@ -108,13 +108,37 @@ def make_quiz(rng):
     return items
 
 
+# Passages use their own names and phrasing, so that they share no n-gram with the
+# forum posts unless one was planted.
+P_NAMES = ["Brother Anselm", "the widow Carrow", "young Fenn Abbot", "Captain Ruadh",
+           "the surveyor Lisle", "Mother Grayling", "the ferryman Ortolan", "Sister Imelda"]
+P_PLACES = ["the chapel of Saint Brannoc", "Kestrel Point", "the salt road to Ardwell",
+            "the drowned village of Lowmere", "the signal tower at Hob's Nab",
+            "the tithe barn at Sculley", "the causeway to Inish Var", "Ropers' Row"]
+P_DEEDS = ["kept a daybook of every ship that passed", "buried the parish silver under a cairn",
+           "taught the harbour children to read the stars", "bargained for timber with traders from the south",
+           "carried lamp oil across the sands at every spring tide", "wrote down the old songs of the net makers",
+           "refused to leave when the sea took the lower fields", "built a wall of turf and shingle against the surge"]
+P_OUTCOMES = ["and the habit outlived everyone who remembered why it began",
+              "which is why the lane still floods each March", "until a storm scattered the pages over the marsh",
+              "and visitors are still shown the place today", "though nobody agrees on the exact year",
+              "so that the custom passed to the next generation"]
+
+
 def make_passages(rng):
     out = []
     for i in range(1, 13):
-        sents = [sentence(rng) for _ in range(rng.randint(6, 9))]
+        sents = []
+        for _ in range(rng.randint(6, 9)):
+            # A year or a ledger number falls in every 13-token window, so two
+            # passages do not share an n-gram by chance.
+            sents.append(f"In {rng.randint(1620, 1890)}, {rng.choice(P_NAMES)} of "
+                         f"{rng.choice(P_PLACES)} (entry {rng.randint(1, 9999)}) "
+                         f"{rng.choice(P_DEEDS)} in {rng.randint(1620, 1890)}, "
+                         f"{rng.choice(P_OUTCOMES)}.")
         passage = " ".join(sents)
-        question = (f"According to the passage, what did {rng.choice(PEOPLE)} do at "
-                    f"{rng.choice(HARBOURS)}?")
+        question = (f"According to the passage, what did {rng.choice(P_NAMES)} do near "
+                    f"{rng.choice(P_PLACES)}?")
         out.append({"id": f"hr-{i:02d}", "passage": passage, "question": question})
     return out
 
