@@ -32,12 +32,25 @@ struct NgramInfo {
 
 class IndexManifest;  // index/manifest.h; parsed manifest
 
+/// How much Open checks.
+struct IndexOpenOptions {
+  /// Verify every section checksum of every shard (in parallel, at memory speed), so
+  /// that a bit-flipped shard is refused before any lookup. false: header checks only
+  /// (for huge indexes; then run `tidemark index verify` out of band).
+  bool verify_checksums = true;
+  /// Worker threads for the checksum pass; 0: all hardware threads.
+  int threads = 0;
+};
+
 /// An opened, read-only index (all segments, mmap'd).
 class Index {
  public:
-  /// Opens and validates the manifest and every shard header; checksums of large
-  /// sections are checked by Verify (and lazily by nothing else).
+  /// Opens and validates the manifest, every shard header and (by default) every
+  /// section checksum. Errors: kNotFound (no manifest: not an index), kCorruption
+  /// naming file@offset, kUnsupported (format version).
   static Result<std::unique_ptr<Index>> Open(const std::string& dir);
+  static Result<std::unique_ptr<Index>> Open(const std::string& dir,
+                                             const IndexOpenOptions& options);
   virtual ~Index() = default;
 
   /// kMismatch naming each differing parameter (n, rules, seed, accents) when the

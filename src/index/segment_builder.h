@@ -1,0 +1,100 @@
+// SegmentBuilder: documents' fingerprints -> the shard files of one new segment.
+//
+// Each worker owns a fixed-capacity buffer (its share of the memory budget). A
+// document's fingerprints are sorted and de-duplicated; each distinct one is appended
+// once (one document), repeats inside the document go to a small "extra occurrences"
+// list. A full buffer is radix-sorted and spilled as a run file. Finish k-way merges,
+// shard by shard in parallel, the buffers still in memory and all runs, and writes one
+// shard file per shard. The result depends only on the multiset of documents.
+//
+// Thread safety: AddDocument(w, ...) may run concurrently for distinct w; everything
+// else is single-owner.
+#ifndef TIDEMARK_SRC_INDEX_SEGMENT_BUILDER_H_
+#define TIDEMARK_SRC_INDEX_SEGMENT_BUILDER_H_
+
+#include <atomic>
+#include <cstdint>
+#include <memory>
+#include <mutex>
+#include <string>
+#include <vector>
+
+#include "common/env.h"
+#include "index/kway_merge.h"
+#include "index/manifest.h"
+#include "index/shard_writer.h"
+#include "tidemark/progress.h"
+#include "tidemark/status.h"
+
+namespace tidemark {
+
+/// Throttled, thread-safe progress reporting for one long operation.
+class ProgressReporter {
+ public:
+  explicit ProgressReporter(ProgressSink* sink) : sink_(sink) {}
+  void set_total(uint64_t total) { total_ = total; }
+  void AddBytes(uint64_t n) { done_.fetch_add(n, std::memory_order_relaxed); }
+  void AddRecords(uint64_t n) { records_.fetch_add(n, std::memory_order_relaxed); }
+  void SetDone(uint64_t done) { done_.store(done, std::memory_order_relaxed); }
+  /// Reports at most every 100 ms unless `force`.
+  void Report(std::string_view phase, bool force = false);
+  uint64_t done() const { return done_.load(); }
+
+ private:
+  ProgressSink* sink_;
+  std::mutex mu_;
+  uint64_t total_ = 0;
+  std::atomic<uint64_t> done_{0};
+  std::atomic<uint64_t> records_{0};
+  std::atomic<int64_t> last_ns_{0};
+};
+
+class SegmentBuilder {
+ public:
+  /// `buffer_bytes` is split evenly across `workers`; runs go to `run_dir` (created
+  /// on first spill). `merge_budget` bounds the memory of concurrent shard writers.
+  SegmentBuilder(const ShardParams& params, int workers, uint64_t buffer_bytes,
+                 uint64_t merge_budget, std::string run_dir, Env* env,
+                 ProgressReporter* progress);
+  ~SegmentBuilder();
+
+  /// Adds one document. Sorts *fps in place. REQUIRES: 0 <= worker < workers.
+  Status AddDocument(int worker, std::vector<uint64_t>* fps);
+
+  /// Merges everything into `staging_dir`/shard-NNNNN.tms (with `threads` threads)
+  /// and fills seg->shards, ngrams_total, ngrams_distinct, bytes.
+  Status Finish(const std::string& staging_dir, int threads, ManifestSegment* seg);
+
+  uint64_t spills() const { return spills_.load(); }
+  uint64_t spilled_bytes() const { return spilled_bytes_.load(); }
+  uint64_t ngrams_total() const;
+
+ private:
+  struct Worker {
+    std::vector<uint64_t> main;
+    std::vector<ExtraCount> extras;
+    uint64_t ngrams = 0;
+  };
+  Status Spill(Worker* w);
+  bool Full(const Worker& w, size_t more) const {
+    return w.main.size() + 2 * w.extras.size() + more > capacity_slots_;
+  }
+
+  ShardParams params_;
+  uint32_t num_shards_;
+  size_t capacity_slots_;
+  uint64_t merge_budget_;
+  std::string run_dir_;
+  Env* env_;
+  ProgressReporter* progress_;
+  std::vector<Worker> workers_;
+  std::mutex runs_mu_;
+  std::vector<std::string> run_paths_;
+  bool run_dir_made_ = false;
+  std::atomic<uint64_t> spills_{0};
+  std::atomic<uint64_t> spilled_bytes_{0};
+};
+
+}  // namespace tidemark
+
+#endif  // TIDEMARK_SRC_INDEX_SEGMENT_BUILDER_H_

@@ -1,0 +1,107 @@
+// ShardReader: a read-only, mmap'd shard file (docs/index_format.md "Shard file").
+// Open validates the header (magic, version, header checksum, field ranges, section
+// bounds, expected parameters); VerifyChecksums checks every section's XXH3;
+// VerifyInvariants checks sorted, unique keys, the directory and the counts.
+//
+// Thread safety: after Open, every const method may be called from many threads.
+#ifndef TIDEMARK_SRC_INDEX_SHARD_READER_H_
+#define TIDEMARK_SRC_INDEX_SHARD_READER_H_
+
+#include <array>
+#include <cstdint>
+#include <memory>
+#include <string>
+
+#include "index/bloom_filter.h"
+#include "index/format.h"
+#include "index/shard_writer.h"
+#include "tidemark/index.h"
+#include "tidemark/status.h"
+
+namespace tidemark {
+
+class ShardReader {
+ public:
+  /// Maps `path` and validates its header against `expected` (shard_bits, shard_id,
+  /// bloom_bits_per_key, params_hash). Errors are kCorruption / kUnsupported naming
+  /// path@offset.
+  static Result<std::unique_ptr<ShardReader>> Open(const std::string& path,
+                                                   const ShardParams& expected);
+  ~ShardReader();
+  ShardReader(const ShardReader&) = delete;
+  ShardReader& operator=(const ShardReader&) = delete;
+
+  /// XXH3 of every section (and zero padding, exact file end).
+  Status VerifyChecksums() const;
+  /// Sorted, unique, in-shard keys; monotone directory; 1 <= docs <= count; exception
+  /// tables consistent; header totals equal the sums.
+  Status VerifyInvariants() const;
+
+  uint64_t size() const { return n_; }
+  uint64_t KeyAt(uint64_t i) const;
+  uint32_t CountAt(uint64_t i) const { return Decode(kCounts, i); }
+  uint32_t DocsAt(uint64_t i) const { return Decode(kDocs, i); }
+
+  /// Exact lookup (no Bloom): index of fp, or -1.
+  int64_t Find(uint64_t fp) const;
+  /// Bloom first, exact second; adds to *info (saturating).
+  void LookupInto(uint64_t fp, NgramInfo* info) const {
+    if (bloom_.MayContain(fp)) ExactInto(fp, info);
+  }
+  /// Exact only; adds to *info (saturating).
+  void ExactInto(uint64_t fp, NgramInfo* info) const;
+  const BloomFilterView& bloom() const { return bloom_; }
+  /// Sequential access for merge and dump: bucket j holds keys [DirAt(j), DirAt(j+1)).
+  uint64_t num_buckets() const { return bucket_mask_ + 1; }
+  uint64_t DirAt(uint64_t j) const { return index_format::LoadLE32(dir_ + j * 4); }
+  uint64_t MakeKey(uint64_t bucket, uint64_t remainder) const {
+    return shard_prefix_ | (bucket << w_) | remainder;
+  }
+  uint64_t RemainderAt(uint64_t i) const {
+    const uint64_t bit = i * w_;
+    return (index_format::LoadLE64(rem_ + (bit >> 3)) >> (bit & 7)) & rem_mask_;
+  }
+  /// Address of fp's directory entry (prefetch).
+  const uint8_t* DirEntryFor(uint64_t fp) const { return dir_ + BucketOf(fp) * 4; }
+
+  const std::string& path() const { return path_; }
+  uint64_t file_bytes() const { return file_bytes_; }
+  uint32_t bucket_bits() const { return b_; }
+  uint32_t remainder_bits() const { return w_; }
+  uint64_t total_count() const { return total_count_; }
+  uint64_t total_docs() const { return total_docs_; }
+  uint64_t header_xxh3() const { return header_xxh3_; }
+  struct SectionInfo {
+    uint64_t offset = 0, bytes = 0, xxh3 = 0;
+  };
+  const SectionInfo& section(int i) const { return sections_[i]; }
+
+ private:
+  enum Which { kCounts, kDocs };
+  ShardReader() = default;
+  uint64_t BucketOf(uint64_t fp) const { return (fp >> w_) & bucket_mask_; }
+  uint32_t Decode(Which which, uint64_t i) const;
+
+  std::string path_;
+  void* map_ = nullptr;
+  uint64_t file_bytes_ = 0;
+  const uint8_t* base_ = nullptr;
+  uint32_t s_ = 0, shard_id_ = 0, b_ = 0, w_ = 0;
+  uint64_t n_ = 0;
+  uint64_t shard_prefix_ = 0;
+  uint64_t bucket_mask_ = 0, rem_mask_ = 0;
+  uint64_t total_count_ = 0, total_docs_ = 0, header_xxh3_ = 0;
+  std::array<SectionInfo, index_format::kNumSections> sections_{};
+  BloomFilterView bloom_;
+  const uint8_t* dir_ = nullptr;
+  const uint8_t* rem_ = nullptr;
+  const uint8_t* counts_ = nullptr;
+  const uint8_t* docs_ = nullptr;
+  const uint8_t* count_ex_ = nullptr;
+  const uint8_t* doc_ex_ = nullptr;
+  uint64_t count_ex_n_ = 0, doc_ex_n_ = 0;
+};
+
+}  // namespace tidemark
+
+#endif  // TIDEMARK_SRC_INDEX_SHARD_READER_H_

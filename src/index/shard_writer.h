@@ -1,0 +1,67 @@
+// ShardWriter: sorted unique fingerprints with counts -> one shard file
+// (docs/index_format.md "Shard file"). Keys are kept in memory (about 10 bytes per
+// key) until Finish, which lays out the Bloom filter, bucket directory, bit-packed
+// remainders and counts, and writes the file in one sequential pass.
+//
+// Thread safety: one owner. Distinct writers may run in distinct threads.
+#ifndef TIDEMARK_SRC_INDEX_SHARD_WRITER_H_
+#define TIDEMARK_SRC_INDEX_SHARD_WRITER_H_
+
+#include <cstdint>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "common/env.h"
+#include "tidemark/status.h"
+
+namespace tidemark {
+
+/// Parameters every shard of an index shares, plus which shard this is.
+struct ShardParams {
+  uint32_t shard_bits = 8;
+  uint32_t shard_id = 0;
+  uint32_t bloom_bits_per_key = 10;
+  uint64_t params_hash = 0;  ///< XXH3 of TextOptions::ToString()
+};
+
+/// What the manifest records about a written shard.
+struct ShardFileInfo {
+  uint32_t shard_id = 0;
+  uint64_t keys = 0;
+  uint64_t bytes = 0;
+  uint64_t header_xxh3 = 0;
+  uint64_t total_count = 0;
+  uint64_t total_docs = 0;
+};
+
+class ShardWriter {
+ public:
+  explicit ShardWriter(const ShardParams& params);
+  ShardWriter(const ShardWriter&) = delete;
+  ShardWriter& operator=(const ShardWriter&) = delete;
+
+  /// REQUIRES: fp strictly greater than the previous key, ShardOf(fp) == shard_id,
+  /// 1 <= docs <= count. Counts above 2^32-1 saturate.
+  void Add(uint64_t fp, uint64_t count, uint64_t docs);
+  uint64_t size() const { return keys_.size(); }
+  /// Approximate bytes held (for the memory budget).
+  uint64_t MemoryBytes() const;
+
+  /// Writes the shard to `path` (created or truncated) and fsyncs it.
+  Status Finish(const std::string& path, Env* env, ShardFileInfo* info);
+
+ private:
+  ShardParams params_;
+  std::vector<uint64_t> keys_;
+  std::vector<uint8_t> counts_;
+  std::vector<uint8_t> docs_;
+  std::vector<std::pair<uint32_t, uint32_t>> count_exceptions_;
+  std::vector<std::pair<uint32_t, uint32_t>> doc_exceptions_;
+  uint64_t total_count_ = 0;
+  uint64_t total_docs_ = 0;
+};
+
+}  // namespace tidemark
+
+#endif  // TIDEMARK_SRC_INDEX_SHARD_WRITER_H_

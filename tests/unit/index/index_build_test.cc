@@ -1,0 +1,402 @@
+#include "tidemark/index_builder.h"
+
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <catch2/catch.hpp>
+
+#include <algorithm>
+#include <filesystem>
+#include <random>
+#include <thread>
+
+#include "common/env.h"
+#include "index/manifest.h"
+#include "index_test_util.h"
+#include "test_util.h"
+#include "tidemark/index.h"
+
+namespace tidemark {
+namespace {
+
+using testing::IndexContentBytes;
+using testing::MakeDocuments;
+using testing::ReferenceCounts;
+
+IndexBuildOptions SmallOptions(int threads = 2) {
+  IndexBuildOptions o;
+  o.shard_bits = 4;
+  o.threads = threads;
+  o.memory_budget = 256ull << 20;
+  return o;
+}
+
+void CheckAgainstReference(const Index& index, const std::map<uint64_t, NgramInfo>& ref) {
+  std::vector<uint64_t> fps;
+  for (const auto& [fp, info] : ref) fps.push_back(fp);
+  std::vector<NgramInfo> out(fps.size());
+  index.Lookup(fps, out);
+  size_t i = 0;
+  for (const auto& [fp, info] : ref) {
+    INFO("fp " << fp);
+    CHECK(out[i].count == info.count);
+    CHECK(out[i].docs == info.docs);
+    ++i;
+  }
+  // Keys never inserted: exact confirmation means none is reported present.
+  testing::SplitMix64 rng(0xABCDEF);
+  std::vector<uint64_t> absent;
+  while (absent.size() < 50000) {
+    const uint64_t k = rng.Next();
+    if (ref.count(k) == 0) absent.push_back(k);
+  }
+  std::vector<NgramInfo> aout(absent.size());
+  index.Lookup(absent, aout);
+  size_t present = 0;
+  for (const auto& a : aout) present += a.present();
+  CHECK(present == 0);
+}
+
+TEST_CASE("build from documents: lookups equal a reference count", "[index][build]") {
+  const auto docs = MakeDocuments(1, 2000, 60, 30000);
+  const auto ref = ReferenceCounts(docs);
+  const std::string dir = testing::ScratchDir("build_ref") + "/idx";
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st).ok());
+  CHECK(st.records == docs.size());
+  CHECK(st.ngrams_distinct == ref.size());
+  uint64_t total = 0;
+  for (const auto& d : docs) total += d.size();
+  CHECK(st.ngrams_total == total);
+  auto idx = Index::Open(dir);
+  REQUIRE(idx.ok());
+  CheckAgainstReference(**idx, ref);
+  IndexVerifyReport vr;
+  CHECK(VerifyIndex(dir, 2, &vr).ok());
+  CHECK(vr.keys_checked == ref.size());
+  // Dump: ascending, equal to the reference.
+  std::vector<std::pair<uint64_t, NgramInfo>> dumped;
+  REQUIRE(DumpIndex(dir, [&](uint64_t fp, const NgramInfo& i) {
+            dumped.emplace_back(fp, i);
+            return Status::Ok();
+          }).ok());
+  REQUIRE(dumped.size() == ref.size());
+  size_t i = 0;
+  for (const auto& [fp, info] : ref) {
+    CHECK(dumped[i].first == fp);
+    CHECK(dumped[i].second.count == info.count);
+    CHECK(dumped[i].second.docs == info.docs);
+    ++i;
+  }
+  // Temp runs and staging are gone; the directory holds exactly the documented names.
+  for (const auto& name : testing::ListTree(dir)) {
+    CHECK((name == "LOCK" || name == "manifest.json" || name.rfind("seg-000001", 0) == 0));
+  }
+}
+
+TEST_CASE("index bytes do not depend on threads, memory budget or document order",
+          "[index][build][determinism]") {
+  const auto docs = MakeDocuments(2, 3000, 80, 50000);
+  const std::string base = testing::ScratchDir("determinism");
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(base + "/t1", docs, SmallOptions(1), false, &st).ok());
+  CHECK(st.spills == 0);
+  REQUIRE(BuildIndexFromDocuments(base + "/t2", docs, SmallOptions(2), false, &st).ok());
+  IndexBuildOptions tiny = SmallOptions(2);
+  tiny.memory_budget = 1;  // floor-sized buffers: many spills
+  REQUIRE(BuildIndexFromDocuments(base + "/tiny", docs, tiny, false, &st).ok());
+  CHECK(st.spills > 10);
+  auto shuffled = docs;
+  std::mt19937_64 g(3);
+  std::shuffle(shuffled.begin(), shuffled.end(), g);
+  REQUIRE(BuildIndexFromDocuments(base + "/shuf", shuffled, SmallOptions(2), false, &st).ok());
+  const std::string a = IndexContentBytes(base + "/t1");
+  CHECK(a == IndexContentBytes(base + "/t2"));
+  CHECK(a == IndexContentBytes(base + "/tiny"));
+  CHECK(a == IndexContentBytes(base + "/shuf"));
+  auto idx = Index::Open(base + "/tiny");
+  REQUIRE(idx.ok());
+  CheckAgainstReference(**idx, ReferenceCounts(docs));
+}
+
+TEST_CASE("merge(build(A), add(B)) equals build(A+B) byte for byte", "[index][merge]") {
+  const auto all = MakeDocuments(4, 3000, 50, 40000);
+  const std::vector<std::vector<uint64_t>> a(all.begin(), all.begin() + 1200);
+  const std::vector<std::vector<uint64_t>> b(all.begin() + 1200, all.end());
+  const std::string base = testing::ScratchDir("merge");
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(base + "/ab", all, SmallOptions(), false, &st).ok());
+  REQUIRE(BuildIndexFromDocuments(base + "/x", a, SmallOptions(), false, &st).ok());
+  REQUIRE(BuildIndexFromDocuments(base + "/x", b, SmallOptions(), true, &st).ok());
+  CHECK(st.segment_id == 2);
+  {
+    // Two segments: lookups sum over them.
+    auto idx = Index::Open(base + "/x");
+    REQUIRE(idx.ok());
+    CHECK((*idx)->manifest().segments.size() == 2);
+    CheckAgainstReference(**idx, ReferenceCounts(all));
+  }
+  // Separate indexes merged into a new one (one index per cluster task).
+  REQUIRE(BuildIndexFromDocuments(base + "/ia", a, SmallOptions(), false, &st).ok());
+  REQUIRE(BuildIndexFromDocuments(base + "/ib", b, SmallOptions(), false, &st).ok());
+  IndexMergeStats ms;
+  REQUIRE(MergeIndexes(base + "/iab", {base + "/ia", base + "/ib"}, IndexMergeOptions{}, &ms).ok());
+  CHECK(ms.segments_in == 2);
+  REQUIRE(MergeSegments(base + "/x", IndexMergeOptions{}, &ms).ok());
+  CHECK(ms.segments_in == 2);
+  CHECK(ms.segment_id == 3);
+  const std::string want = IndexContentBytes(base + "/ab");
+  CHECK(IndexContentBytes(base + "/x") == want);
+  CHECK(IndexContentBytes(base + "/iab") == want);
+  // Old segments are gone after the merge.
+  CHECK(!testing::PathExists(base + "/x/seg-000001"));
+  CHECK(!testing::PathExists(base + "/x/seg-000002"));
+  auto idx = Index::Open(base + "/x");
+  REQUIRE(idx.ok());
+  CheckAgainstReference(**idx, ReferenceCounts(all));
+  IndexVerifyReport vr;
+  CHECK(VerifyIndex(base + "/x", 2, &vr).ok());
+}
+
+TEST_CASE("mismatched parameters are named errors", "[index][params]") {
+  const auto docs = MakeDocuments(5, 100, 20, 1000);
+  const std::string dir = testing::ScratchDir("params") + "/idx";
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st).ok());
+  auto idx = Index::Open(dir);
+  REQUIRE(idx.ok());
+  TextOptions want;
+  CHECK((*idx)->CheckTextOptions(want).ok());
+  want.ngram = 8;
+  want.seed = 5;
+  Status s = (*idx)->CheckTextOptions(want);
+  CHECK(s.code() == StatusCode::kMismatch);
+  CHECK(s.message().find("n=13") != std::string::npos);
+  CHECK(s.message().find("n=8") != std::string::npos);
+  CHECK(s.message().find("seed=5") != std::string::npos);
+  want = TextOptions{};
+  want.strip_accents = true;
+  CHECK((*idx)->CheckTextOptions(want).message().find("accents") != std::string::npos);
+
+  IndexBuildOptions other = SmallOptions();
+  other.text.ngram = 8;
+  s = BuildIndexFromDocuments(dir, docs, other, true, &st);
+  CHECK(s.code() == StatusCode::kMismatch);
+  CHECK(s.message().find("n=8") != std::string::npos);
+  other = SmallOptions();
+  other.shard_bits = 5;
+  CHECK(BuildIndexFromDocuments(dir, docs, other, true, &st).code() == StatusCode::kMismatch);
+  other = SmallOptions();
+  other.read.fields = {"body"};
+  s = BuildIndexFromDocuments(dir, docs, other, true, &st);
+  CHECK(s.code() == StatusCode::kMismatch);
+  CHECK(s.message().find("body") != std::string::npos);
+  // Building over an existing index is refused; so is a foreign non-empty directory.
+  CHECK(BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st).code() ==
+        StatusCode::kInvalidArgument);
+  const std::string foreign = testing::ScratchDir("foreign");
+  testing::WriteFile(foreign + "/notes.txt", "mine");
+  s = BuildIndexFromDocuments(foreign, docs, SmallOptions(), false, &st);
+  CHECK(s.code() == StatusCode::kInvalidArgument);
+  CHECK(testing::PathExists(foreign + "/notes.txt"));
+  // Not an index.
+  auto none = Index::Open(foreign);
+  REQUIRE(!none.ok());
+  CHECK(none.status().code() == StatusCode::kNotFound);
+}
+
+TEST_CASE("manifest records parameters and round-trips", "[index][manifest]") {
+  const auto docs = MakeDocuments(6, 50, 10, 500);
+  const std::string dir = testing::ScratchDir("manifest") + "/idx";
+  IndexBuildOptions o = SmallOptions();
+  o.text.ngram = 9;
+  o.text.seed = 12345;
+  o.read.fields = {"/meta/body", "title"};
+  o.read.id_field = "id";
+  o.bloom_bits_per_key = 12;
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(dir, docs, o, false, &st).ok());
+  auto m = ReadManifest(dir);
+  REQUIRE(m.ok());
+  CHECK(m->text == o.text);
+  CHECK(m->read.fields == o.read.fields);
+  CHECK(m->read.id_field == "id");
+  CHECK(m->shard_bits == 4);
+  CHECK(m->bloom_bits_per_key == 12);
+  CHECK(m->records() == docs.size());
+  const std::string json = m->Serialize(true);
+  CHECK(json == testing::ReadFile(dir + "/manifest.json"));
+  auto again = IndexManifest::Parse(json, "x");
+  REQUIRE(again.ok());
+  CHECK(again->Serialize(true) == json);
+  CHECK(again->Identity() == m->Identity());
+  // Unknown keys and other format versions are refused.
+  std::string bad = json;
+  bad.replace(bad.find("\"shard_bits\""), 12, "\"shard_bitz\"");
+  CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kCorruption);
+  bad = json;
+  bad.replace(bad.find("\"format_version\": 1"), 19, "\"format_version\": 2");
+  CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kUnsupported);
+}
+
+// An Env whose writes fail once `budget` bytes have been written (disk full), or
+// whose renames fail.
+class FaultyEnv : public Env {
+ public:
+  uint64_t budget = ~0ull;
+  bool fail_rename_manifest = false;
+  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path) override {
+    TM_ASSIGN_OR_RETURN(auto f, Env::NewWritableFile(path));
+    return std::unique_ptr<WritableFile>(new File(std::move(f), this));
+  }
+  Status Rename(const std::string& from, const std::string& to) override {
+    if (fail_rename_manifest && to.find("manifest.json") != std::string::npos) {
+      return Status::IOError("rename " + from + ": injected failure");
+    }
+    return Env::Rename(from, to);
+  }
+
+ private:
+  class File : public WritableFile {
+   public:
+    File(std::unique_ptr<WritableFile> f, FaultyEnv* env) : f_(std::move(f)), env_(env) {}
+    Status Append(std::string_view data) override {
+      if (data.size() > env_->budget) return Status::IOError("write: No space left on device");
+      env_->budget -= data.size();
+      return f_->Append(data);
+    }
+    Status Sync() override { return f_->Sync(); }
+    Status Close() override { return f_->Close(); }
+    uint64_t size() const override { return f_->size(); }
+
+   private:
+    std::unique_ptr<WritableFile> f_;
+    FaultyEnv* env_;
+  };
+};
+
+TEST_CASE("disk full or a failed rename leaves no index", "[index][faults]") {
+  const auto docs = MakeDocuments(7, 500, 40, 10000);
+  for (const uint64_t budget : {uint64_t{0}, uint64_t{5000}, uint64_t{60000}}) {
+    const std::string dir = testing::ScratchDir("diskfull") + "/idx";
+    FaultyEnv env;
+    env.budget = budget;
+    IndexBuildOptions o = SmallOptions();
+    o.env = &env;
+    o.memory_budget = 1;  // spills too, so run writes can fail
+    IndexBuildStats st;
+    Status s = BuildIndexFromDocuments(dir, docs, o, false, &st);
+    INFO("budget " << budget << ": " << s.ToString());
+    REQUIRE(s.code() == StatusCode::kIOError);
+    CHECK(s.message().find("No space left") != std::string::npos);
+    CHECK(Index::Open(dir).status().code() == StatusCode::kNotFound);
+    for (const auto& name : testing::ListTree(dir)) CHECK(name == "LOCK");
+  }
+  const std::string dir = testing::ScratchDir("renamefail") + "/idx";
+  FaultyEnv env;
+  env.fail_rename_manifest = true;
+  IndexBuildOptions o = SmallOptions();
+  o.env = &env;
+  IndexBuildStats st;
+  CHECK(!BuildIndexFromDocuments(dir, docs, o, false, &st).ok());
+  CHECK(Index::Open(dir).status().code() == StatusCode::kNotFound);
+  for (const auto& name : testing::ListTree(dir)) CHECK(name == "LOCK");
+}
+
+TEST_CASE("a cancelled build leaves no index", "[index][faults]") {
+  const auto docs = MakeDocuments(8, 300, 30, 5000);
+  const std::string dir = testing::ScratchDir("cancel") + "/idx";
+  RequestCancel();
+  IndexBuildStats st;
+  Status s = BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st);
+  ResetCancel();
+  CHECK(s.code() == StatusCode::kCancelled);
+  CHECK(Index::Open(dir).status().code() == StatusCode::kNotFound);
+  // The next build into the same directory works.
+  REQUIRE(BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st).ok());
+  CHECK(Index::Open(dir).ok());
+}
+
+TEST_CASE("left-overs of a killed build are removed by the next build", "[index][faults]") {
+  // A pid that is certainly dead: a child that has exited and been reaped.
+  const pid_t child = ::fork();
+  if (child == 0) ::_exit(0);
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  const std::string dead = std::to_string(child);
+  const std::string dir = testing::ScratchDir("stale") + "/idx";
+  std::filesystem::create_directories(dir + "/.tmp-" + dead);
+  testing::WriteFile(dir + "/.tmp-" + dead + "/run-000000", "partial");
+  std::filesystem::create_directories(dir + "/seg-000001.tmp." + dead);
+  testing::WriteFile(dir + "/seg-000001.tmp." + dead + "/shard-00000.tms", "partial");
+  std::filesystem::create_directories(dir + "/seg-000001");  // renamed, manifest never written
+  testing::WriteFile(dir + "/manifest.json.tmp." + dead, "{");
+  CHECK(Index::Open(dir).status().code() == StatusCode::kNotFound);
+  const auto docs = MakeDocuments(9, 100, 20, 2000);
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st).ok());
+  CHECK(!testing::PathExists(dir + "/.tmp-" + dead));
+  CHECK(!testing::PathExists(dir + "/seg-000001.tmp." + dead));
+  CHECK(!testing::PathExists(dir + "/manifest.json.tmp." + dead));
+  auto idx = Index::Open(dir);
+  REQUIRE(idx.ok());
+  CheckAgainstReference(**idx, ReferenceCounts(docs));
+}
+
+TEST_CASE("concurrent readers get the same answers", "[index][lookup]") {
+  const auto docs = MakeDocuments(10, 2000, 50, 20000);
+  const auto ref = ReferenceCounts(docs);
+  const std::string dir = testing::ScratchDir("concurrent") + "/idx";
+  IndexBuildStats st;
+  REQUIRE(BuildIndexFromDocuments(dir, docs, SmallOptions(), false, &st).ok());
+  REQUIRE(BuildIndexFromDocuments(dir, docs, SmallOptions(), true, &st).ok());  // 2 segments
+  auto idx = Index::Open(dir);
+  REQUIRE(idx.ok());
+  std::vector<uint64_t> fps;
+  testing::SplitMix64 rng(11);
+  for (const auto& [fp, info] : ref) {
+    fps.push_back(fp);
+    fps.push_back(rng.Next());
+  }
+  std::vector<NgramInfo> want(fps.size());
+  (*idx)->Lookup(fps, want);
+  std::vector<std::vector<NgramInfo>> got(4, std::vector<NgramInfo>(fps.size()));
+  std::vector<std::thread> threads;
+  for (int t = 0; t < 4; ++t) {
+    threads.emplace_back([&, t] {
+      // Odd-sized batches, so group boundaries differ from the single-thread run.
+      const size_t batch = 1 + 37 * static_cast<size_t>(t);
+      for (size_t i = 0; i < fps.size(); i += batch) {
+        const size_t n = std::min(batch, fps.size() - i);
+        (*idx)->Lookup(std::span<const uint64_t>(fps.data() + i, n),
+                       std::span<NgramInfo>(got[static_cast<size_t>(t)].data() + i, n));
+      }
+    });
+  }
+  for (auto& th : threads) th.join();
+  size_t k = 0;
+  for (const auto& [fp, info] : ref) {
+    CHECK(want[2 * k].count == 2 * info.count);  // the documents were indexed twice
+    CHECK(want[2 * k].docs == 2 * info.docs);
+    ++k;
+  }
+  for (int t = 0; t < 4; ++t) {
+    for (size_t i = 0; i < fps.size(); ++i) {
+      CHECK(got[static_cast<size_t>(t)][i].count == want[i].count);
+      CHECK(got[static_cast<size_t>(t)][i].docs == want[i].docs);
+    }
+  }
+}
+
+TEST_CASE("ParseByteSize accepts 512M and 4G", "[index][options]") {
+  CHECK(*ParseByteSize("512M") == 512ull << 20);
+  CHECK(*ParseByteSize("4G") == 4ull << 30);
+  CHECK(*ParseByteSize("1.5GiB") == 3ull << 29);
+  CHECK(*ParseByteSize("100") == 100);
+  CHECK(*ParseByteSize("64kb") == 64ull << 10);
+  CHECK(!ParseByteSize("lots").ok());
+  CHECK(!ParseByteSize("5X").ok());
+}
+
+}  // namespace
+}  // namespace tidemark
