@@ -19,6 +19,7 @@ void SetHandler(Handler handler);
 // (added as subcommands land)
 void RegisterClean(CLI::App& app);
 void RegisterEvidence(CLI::App& app);
+void RegisterIndex(CLI::App& app);
 
 }  // namespace tidemark::cli
 

@@ -31,6 +31,7 @@ int main(int argc, char** argv) {
   // Subcommands register here (see commands.h).
   RegisterClean(app);
   RegisterEvidence(app);
+  RegisterIndex(app);
 
   try {
     app.parse(argc, argv);
