@@ -32,6 +32,7 @@ int main(int argc, char** argv) {
   RegisterClean(app);
   RegisterEvidence(app);
   RegisterIndex(app);
+  RegisterTokens(app);
 
   try {
     app.parse(argc, argv);
