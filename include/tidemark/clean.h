@@ -76,6 +76,9 @@ class BenchmarkTable {
 
   /// Items containing `fp` (sorted by benchmark, item); empty when absent.
   std::span<const ItemRef> Find(uint64_t fp) const;
+  /// Replaces *positions with the indices i of fps whose fps[i] is in the table
+  /// (one call per record: the hot loop of cleaning).
+  void MatchPositions(std::span<const uint64_t> fps, std::vector<uint32_t>* positions) const;
   /// Index of `fp` among the distinct kept fingerprints (for per-n-gram flags), or -1.
   int64_t Slot(uint64_t fp) const;
   size_t distinct_ngrams() const;

@@ -1,6 +1,7 @@
 // BenchmarkTable: the n-grams of the benchmarks in a flat open-addressing map
 // (common/fingerprint_map.h), fingerprint -> run of ItemRefs.
 #include <algorithm>
+#include <bit>
 #include <tuple>
 
 #include "common/fingerprint_map.h"
@@ -20,6 +21,15 @@ struct TableEntry {
 struct BenchmarkTable::Impl {
   FingerprintMap<TableEntry> map;
   std::vector<ItemRef> refs;
+  // Presence bits indexed by the fingerprint's top bits (the map uses the low bits),
+  // about 16 bits per key: most corpus n-grams are rejected by one load from a small
+  // array, without a probe sequence in the map.
+  std::vector<uint64_t> filter;
+  int filter_shift = 64;
+  bool MayContain(uint64_t fp) const {
+    const uint64_t bit = fp >> filter_shift;
+    return (filter[bit >> 6] >> (bit & 63)) & 1;
+  }
 };
 
 BenchmarkTable::BenchmarkTable() : impl_(std::make_unique<Impl>()) {}
@@ -29,6 +39,18 @@ std::span<const ItemRef> BenchmarkTable::Find(uint64_t fp) const {
   const TableEntry* e = impl_->map.Find(fp);
   if (e == nullptr) return {};
   return std::span<const ItemRef>(impl_->refs.data() + e->begin, e->count);
+}
+
+void BenchmarkTable::MatchPositions(std::span<const uint64_t> fps,
+                                    std::vector<uint32_t>* positions) const {
+  positions->clear();
+  const FingerprintMap<TableEntry>& map = impl_->map;
+  const Impl& m = *impl_;
+  for (size_t i = 0; i < fps.size(); ++i) {
+    if (m.MayContain(fps[i]) && map.Find(fps[i]) != nullptr) {
+      positions->push_back(static_cast<uint32_t>(i));
+    }
+  }
 }
 
 int64_t BenchmarkTable::Slot(uint64_t fp) const {
@@ -134,6 +156,13 @@ Result<std::unique_ptr<BenchmarkTable>> BenchmarkTable::Build(
     e.count = static_cast<uint32_t>(m.refs.size()) - e.begin;
     m.map[fp] = e;
   }
+  const size_t bits = std::max<size_t>(4096, std::bit_ceil(m.map.size() * 16));
+  m.filter_shift = 64 - std::countr_zero(bits);
+  m.filter.assign(bits / 64, 0);
+  m.map.ForEach([&](uint64_t fp, const TableEntry&) {
+    const uint64_t bit = fp >> m.filter_shift;
+    m.filter[bit >> 6] |= uint64_t{1} << (bit & 63);
+  });
   return table;
 }
 

@@ -126,17 +126,13 @@ class Worker {
     tokenizer_.Tokenize(text, &tokens_);
     ComputeFingerprints(tokens_, options_.text, &fps_);
     scan->tokens = static_cast<uint32_t>(tokens_.size());
-    scan->hits = 0;
-    scan->positions.clear();
-    for (size_t i = 0; i < fps_.size(); ++i) {
-      const std::span<const ItemRef> r = table_.Find(fps_[i]);
-      if (r.empty()) continue;
-      ++scan->hits;
-      scan->positions.push_back(static_cast<uint32_t>(i));
-      if (refs != nullptr) {
+    table_.MatchPositions(fps_, &scan->positions);
+    scan->hits = static_cast<uint32_t>(scan->positions.size());
+    if (refs != nullptr) {
+      for (uint32_t i : scan->positions) {
+        const std::span<const ItemRef> r = table_.Find(fps_[i]);
         refs->insert(refs->end(), r.begin(), r.end());
-        const int64_t slot = table_.Slot(fps_[i]);
-        seen_[slot].store(1, std::memory_order_relaxed);
+        seen_[table_.Slot(fps_[i])].store(1, std::memory_order_relaxed);
       }
     }
     scan->runs = MergeMatchedRuns(scan->positions, options_.text.ngram);
@@ -249,6 +245,7 @@ void AppendLog(std::string* log, const std::string& file, const Record& rec, con
 struct BlockWork {
   LineBlock block;
   uint64_t disk_bytes = 0;
+  bool unchanged = false;  // the output is block.data itself
   std::string out;
   std::string log;
   uint64_t log_entries = 0;
@@ -262,17 +259,17 @@ class FileCleaner {
       : table_(table), options_(options) {}
 
   // Decides one record. `raw_line`: JSON object line (JSONL) or the text line (text
-  // lines / whole file), without its newline.
-  // Returns false when the record is dropped (nothing written for it).
-  bool Process(Worker& w, const Record& rec, std::string_view raw_line, bool is_json,
-               const std::string& display_path, BlockWork* work) {
+  // lines / whole file), without its newline. kRedact: *new_line gets the rewritten
+  // record.
+  RecordOutcome::Action Process(Worker& w, const Record& rec, std::string_view raw_line, bool is_json,
+                                const std::string& display_path, BlockWork* work,
+                                std::string* new_line) {
     MatchScan scan;
     std::vector<ItemRef> refs;
     w.Scan(rec.text, &scan, &refs);
     ++work->stats.records;
     if (scan.hits == 0 || scan.hits < options_.min_hits || scan.coverage() < options_.min_coverage) {
-      work->out.append(raw_line);
-      return true;
+      return RecordOutcome::kKeep;
     }
     ++work->stats.contaminated;
     const uint32_t ngrams = static_cast<uint32_t>(scan.tokens >= static_cast<uint32_t>(options_.text.ngram)
@@ -299,12 +296,12 @@ class FileCleaner {
     } else {
       ++work->stats.redacted;
       work->stats.spans_redacted += outcome.spans;
-      work->out += outcome.new_line;
+      *new_line = std::move(outcome.new_line);
     }
     AppendLog(&work->log, display_path, rec, scan, spans, refs, outcome, table_,
               options_.max_logged_matches, ngrams);
     ++work->log_entries;
-    return outcome.action != RecordOutcome::kDrop;
+    return outcome.action;
   }
 
  private:
@@ -480,7 +477,10 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
       rec.line = 1;
       rec.record_number = 1;
       BlockWork work;
-      (void)cleaner.Process(*workers.local(), rec, text, false, path, &work);
+      std::string new_line;
+      const RecordOutcome::Action a =
+          cleaner.Process(*workers.local(), rec, text, false, path, &work, &new_line);
+      work.out = a == RecordOutcome::kKeep ? text : a == RecordOutcome::kRedact ? new_line : "";
       TM_RETURN_IF_ERROR(out.Append(work.out));
       TM_RETURN_IF_ERROR(log.Append(work.log));
       summary.log_entries += work.log_entries;
@@ -538,6 +538,13 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
                     const std::string& data = work->block.data;
                     size_t cursor = 0;
                     Record rec;
+                    // Changed records: [begin, end) of the block replaced by `text`.
+                    struct Edit {
+                      size_t begin, end;
+                      std::string text;
+                    };
+                    std::vector<Edit> edits;
+                    std::string new_line;
                     while (true) {
                       Result<bool> more = parser.Next(&rec);
                       if (!more.ok()) {
@@ -549,19 +556,32 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
                       size_t eol = data.find('\n', rel);
                       if (eol == std::string::npos) eol = data.size();
                       const size_t next = eol < data.size() ? eol + 1 : eol;
-                      const std::string_view gap(data.data() + cursor, rel - cursor);
-                      work->stats.passed_unchecked += LinesIn(gap);
-                      work->out.append(gap);
+                      if (rel > cursor) {
+                        work->stats.passed_unchecked += LinesIn(std::string_view(data).substr(cursor, rel - cursor));
+                      }
                       // The record's own line end stays unless the record is dropped.
-                      if (cleaner.Process(w, rec, std::string_view(data).substr(rel, eol - rel),
-                                          is_json, path, work.get())) {
-                        work->out.append(data, eol, next - eol);
+                      const RecordOutcome::Action a =
+                          cleaner.Process(w, rec, std::string_view(data).substr(rel, eol - rel), is_json,
+                                          path, work.get(), &new_line);
+                      if (a == RecordOutcome::kDrop) {
+                        edits.push_back(Edit{rel, next, std::string()});
+                      } else if (a == RecordOutcome::kRedact) {
+                        edits.push_back(Edit{rel, eol, std::move(new_line)});
                       }
                       cursor = next;
                     }
-                    const std::string_view tail(data.data() + cursor, data.size() - cursor);
-                    work->stats.passed_unchecked += LinesIn(tail);
-                    work->out.append(tail);
+                    work->stats.passed_unchecked += LinesIn(std::string_view(data).substr(cursor));
+                    if (edits.empty()) {
+                      work->unchanged = true;
+                    } else {
+                      size_t at = 0;
+                      for (const Edit& e : edits) {
+                        work->out.append(data, at, e.begin - at);
+                        work->out += e.text;
+                        at = e.end;
+                      }
+                      work->out.append(data, at, std::string::npos);
+                    }
                     work->stats.skips = parser.skips();
                     work->stats.bytes_in = data.size();
                     return work;
@@ -574,7 +594,8 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
                       stop = true;
                       return;
                     }
-                    Status s = out.Append(work->out);
+                    Status s = out.Append(work->unchanged ? std::string_view(work->block.data)
+                                                          : std::string_view(work->out));
                     if (s.ok()) s = log.Append(work->log);
                     if (!s.ok()) {
                       st = s;

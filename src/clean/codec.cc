@@ -126,6 +126,14 @@ Status CompressedFileWriter::Drain(bool finish) {
 Status CompressedFileWriter::Append(std::string_view data) {
   if (!status_.ok()) return status_;
   bytes_in_ += data.size();
+  if (compression_ == Compression::kNone && data.size() >= kOutChunk) {
+    // Large uncompressed pieces go straight to the file, without two more copies.
+    out_.append(in_);  // what is pending goes first
+    in_.clear();
+    if (!FlushOut().ok()) return status_;
+    status_ = file_.Append(data);
+    return status_;
+  }
   in_.append(data);
   if (in_.size() >= kInChunk) return Drain(false);
   return Status::Ok();

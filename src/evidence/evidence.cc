@@ -8,6 +8,7 @@
 #include <tbb/task_arena.h>
 
 #include <algorithm>
+#include <bit>
 #include <map>
 #include <memory>
 #include <unordered_map>
@@ -26,6 +27,26 @@ namespace {
 struct TargetRange {
   uint32_t begin = 0;
   uint32_t count = 0;
+};
+
+// Presence bits on the fingerprint's top bits (the map uses the low bits), ~16 per
+// target: most corpus n-grams are rejected with one load.
+struct PresenceBits {
+  std::vector<uint64_t> words;
+  int shift = 64;
+  void Build(const FingerprintMap<TargetRange>& map) {
+    const size_t bits = std::max<size_t>(4096, std::bit_ceil(map.size() * 16));
+    shift = 64 - std::countr_zero(bits);
+    words.assign(bits / 64, 0);
+    map.ForEach([&](uint64_t fp, const TargetRange&) {
+      const uint64_t b = fp >> shift;
+      words[b >> 6] |= uint64_t{1} << (b & 63);
+    });
+  }
+  bool MayContain(uint64_t fp) const {
+    const uint64_t b = fp >> shift;
+    return (words[b >> 6] >> (b & 63)) & 1;
+  }
 };
 
 bool IsFlagged(const ItemResult& item) {
@@ -59,10 +80,11 @@ struct ScanOut {
 class Scanner {
  public:
   Scanner(const std::vector<EvidenceTarget>& targets, const std::vector<uint32_t>& order,
-          const FingerprintMap<TargetRange>& map, const std::vector<uint32_t>& target_slot,
+          const FingerprintMap<TargetRange>& map, const PresenceBits& bits,
+          const std::vector<uint32_t>& target_slot,
           size_t items, const TextOptions& text, const ReadOptions& read,
           const EvidenceOptions& options)
-      : targets_(targets), order_(order), map_(map), target_slot_(target_slot), items_(items),
+      : targets_(targets), order_(order), map_(map), bits_(bits), target_slot_(target_slot), items_(items),
         text_(text), options_(options), tokenizer_(text), locator_(read) {}
 
   // kind: 0 JSONL (raw_line is the JSON line), 1 text (raw_line starts with the
@@ -75,6 +97,7 @@ class Scanner {
     bool have_text = false;
     touched_.clear();
     for (size_t i = 0; i < fps_.size(); ++i) {
+      if (!bits_.MayContain(fps_[i])) continue;
       const TargetRange* r = map_.Find(fps_[i]);
       if (r == nullptr) continue;
       for (uint32_t k = r->begin; k < r->begin + r->count; ++k) {
@@ -189,6 +212,7 @@ class Scanner {
   const std::vector<EvidenceTarget>& targets_;
   const std::vector<uint32_t>& order_;
   const FingerprintMap<TargetRange>& map_;
+  const PresenceBits& bits_;
   const std::vector<uint32_t>& target_slot_;
   size_t items_;
   const TextOptions& text_;
@@ -347,10 +371,12 @@ Result<EvidenceReport> ScanForEvidence(const std::vector<BenchmarkResult>& resul
     r.count = static_cast<uint32_t>(k) - r.begin;
     map[fp] = r;
   }
+  PresenceBits bits;
+  bits.Build(map);
   report.stats.targets = targets.size();
   const size_t nitems = report.items.size();
   tbb::enumerable_thread_specific<std::unique_ptr<Scanner>> scanners([&] {
-    auto s = std::make_unique<Scanner>(targets, order, map, target_slot, nitems, text, read, options);
+    auto s = std::make_unique<Scanner>(targets, order, map, bits, target_slot, nitems, text, read, options);
     s->EnsureSlots();
     return s;
   });
