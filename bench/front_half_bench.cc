@@ -62,6 +62,7 @@ enum class Level { kRead, kFull };
 
 struct PassResult {
   double seconds = 0;
+  double cpu_seconds = 0;  // user + system, all threads
   uint64_t bytes = 0;  // uncompressed
   uint64_t records = 0;
   uint64_t prints = 0;
@@ -97,6 +98,13 @@ class BlockPool {
   std::vector<std::unique_ptr<LineBlock>> owned_;
 };
 
+double CpuSeconds(int who) {
+  struct rusage ru;
+  getrusage(who, &ru);
+  return static_cast<double>(ru.ru_utime.tv_sec + ru.ru_stime.tv_sec) +
+         static_cast<double>(ru.ru_utime.tv_usec + ru.ru_stime.tv_usec) / 1e6;
+}
+
 PassResult RunPass(const std::vector<std::string>& files, int threads, Level level) {
   ReadOptions ro;
   ro.id_field = "id";
@@ -107,6 +115,7 @@ PassResult RunPass(const std::vector<std::string>& files, int threads, Level lev
   std::mutex err_mu;
   std::string error;
   const auto start = Clock::now();
+  const double cpu_start = CpuSeconds(RUSAGE_SELF);
   tbb::task_arena arena(threads);
   arena.execute([&] {
     tbb::parallel_for_each(files.begin(), files.end(), [&](const std::string& path) {
@@ -162,6 +171,7 @@ PassResult RunPass(const std::vector<std::string>& files, int threads, Level lev
   });
   PassResult r;
   r.seconds = std::chrono::duration<double>(Clock::now() - start).count();
+  r.cpu_seconds = CpuSeconds(RUSAGE_SELF) - cpu_start;
   r.bytes = bytes.load();
   for (const auto& w : workers) {
     if (!w) continue;
@@ -186,19 +196,24 @@ long PeakRssKb() {
 }
 
 struct Timing {
-  double best = 0;
-  double median = 0;
+  double best = 0;    // wall seconds
+  double median = 0;  // wall seconds
+  double cpu_best = 0;  // CPU seconds (user + system), best run
 };
 
-// Runs f `repeat` times, drops the first, returns best and median seconds.
+// Runs f `repeat` times (f returns {wall, cpu} seconds), drops the first, returns
+// best and median wall seconds and the best CPU seconds.
 template <typename F>
 Timing Time(int repeat, F f) {
-  std::vector<double> t;
+  std::vector<double> t, c;
   for (int i = 0; i < repeat; ++i) {
-    const double s = f();
-    if (i > 0 || repeat == 1) t.push_back(s);
+    const std::pair<double, double> s = f();
+    if (i > 0 || repeat == 1) {
+      t.push_back(s.first);
+      c.push_back(s.second);
+    }
   }
-  return {*std::min_element(t.begin(), t.end()), Median(t)};
+  return {*std::min_element(t.begin(), t.end()), Median(t), *std::min_element(c.begin(), c.end())};
 }
 
 std::vector<std::string> Expand(const std::vector<std::string>& args) {
@@ -211,8 +226,10 @@ std::vector<std::string> Expand(const std::vector<std::string>& args) {
   return *r;
 }
 
-double ZstdBaseline(const std::vector<std::string>& files) {
+// Wall and CPU seconds of `zstd -dc FILE > /dev/null` over the files in turn.
+std::pair<double, double> ZstdBaseline(const std::vector<std::string>& files) {
   const auto start = Clock::now();
+  const double cpu_start = CpuSeconds(RUSAGE_CHILDREN);
   for (const std::string& f : files) {
     const std::string cmd = "zstd -q -dc '" + f + "' > /dev/null";
     if (std::system(cmd.c_str()) != 0) {
@@ -220,7 +237,8 @@ double ZstdBaseline(const std::vector<std::string>& files) {
       std::exit(1);
     }
   }
-  return std::chrono::duration<double>(Clock::now() - start).count();
+  return {std::chrono::duration<double>(Clock::now() - start).count(),
+          CpuSeconds(RUSAGE_CHILDREN) - cpu_start};
 }
 
 int Throughput(const std::vector<std::string>& plain, const std::vector<std::string>& zst,
@@ -239,6 +257,8 @@ int Throughput(const std::vector<std::string>& plain, const std::vector<std::str
     for (const Level level : levels) {
       double one_thread = 0;
       double best_wall_by_threads = 0;
+      double one_thread_cpu = 0;
+      double best_cpu_by_threads = 0;
       for (const int t : threads) {
         PassResult last;
         const Timing tm = Time(repeat, [&] {
@@ -247,16 +267,20 @@ int Throughput(const std::vector<std::string>& plain, const std::vector<std::str
             std::fprintf(stderr, "front_half_bench: %s\n", last.error.c_str());
             std::exit(1);
           }
-          return last.seconds;
+          return std::make_pair(last.seconds, last.cpu_seconds);
         });
         const double mb = static_cast<double>(last.bytes) / 1e6;
         if (t == threads.front()) one_thread = tm.best;
         best_wall_by_threads = tm.best;
+        if (t == threads.front()) one_thread_cpu = tm.cpu_best;
+        best_cpu_by_threads = tm.cpu_best;
         std::printf("%-9s %-10s %zu files %8.1f MB %d thread%s: best %7.1f MB/s  median %7.1f "
-                    "MB/s  wall %6.2f s  speedup %.2fx  (%llu records, %llu prints, sum %016llx)\n",
+                    "MB/s  wall %6.2f s  speedup %.2fx  cpu %6.2f s = %6.1f MB/cpu-s (x%.2f of 1st)  "
+                    "(%llu records, %llu prints, sum %016llx)\n",
                     set.name, level == Level::kRead ? "read+parse" : "front-half",
                     set.files->size(), mb, t, t == 1 ? " " : "s", mb / tm.best, mb / tm.median,
-                    tm.best, one_thread / tm.best, static_cast<unsigned long long>(last.records),
+                    tm.best, one_thread / tm.best, tm.cpu_best, mb / tm.cpu_best,
+                    one_thread_cpu / tm.cpu_best, static_cast<unsigned long long>(last.records),
                     static_cast<unsigned long long>(last.prints),
                     static_cast<unsigned long long>(last.checksum));
         std::fflush(stdout);
@@ -264,10 +288,11 @@ int Throughput(const std::vector<std::string>& plain, const std::vector<std::str
       if (set.files == &zst) {
         const Timing base = Time(repeat, [&] { return ZstdBaseline(zst); });
         std::printf("%-9s baseline   zstd -dc > /dev/null, one file after another (1 core): "
-                    "best wall %6.2f s  median %6.2f s;  %s/%d threads vs baseline: %.2fx\n",
-                    set.name, base.best, base.median,
+                    "best wall %6.2f s  median %6.2f s  cpu %6.2f s;  %s/%d threads vs "
+                    "baseline: wall %.2fx, cpu %.2fx\n",
+                    set.name, base.best, base.median, base.cpu_best,
                     level == Level::kRead ? "read+parse" : "front-half", threads.back(),
-                    best_wall_by_threads / base.best);
+                    best_wall_by_threads / base.best, best_cpu_by_threads / base.cpu_best);
         std::fflush(stdout);
       }
     }

@@ -11,7 +11,9 @@ byte-identical files.
 Usage: scripts/gen_corpus.py --out-dir DIR [--files N] [--total-mb M] [--zstd]
        [--keep-plain] [--seed S] [--jobs J] [--prefix NAME]
 Files are DIR/NAME-00000.jsonl (or .jsonl.zst with --zstd, compressed with the zstd
-CLI; --keep-plain keeps the .jsonl too). Stdlib only; files are made in parallel.
+CLI; --keep-plain keeps the .jsonl too). Stdlib only; each file is made of ~8 MiB
+chunks with their own seeded generator, produced in parallel (--jobs processes) and
+written in order.
 """
 import argparse
 import bisect
@@ -81,35 +83,33 @@ def make_document(rng, vocab, cum):
     return " ".join(out), n
 
 
-def write_file(job):
-    path, target_bytes, seed, file_index, compress, keep_plain, vocab_seed = job
-    vocab, cum = load_vocabulary(vocab_seed)
-    rng = random.Random(seed * 1000003 + file_index)
-    written = 0
+CHUNK_BYTES = 8 << 20  # each chunk has its own seeded RNG, so chunks run in parallel
+
+_VOCAB = None
+
+
+def make_chunk(job):
+    """Documents of about CHUNK_BYTES for (file, chunk); returns (text, bytes, docs)."""
+    global _VOCAB
+    target, seed, file_index, chunk_index, vocab_seed = job
+    if _VOCAB is None:
+        _VOCAB = load_vocabulary(vocab_seed)
+    vocab, cum = _VOCAB
+    rng = random.Random((seed * 1000003 + file_index) * 1000003 + chunk_index)
+    lines = []
+    size = 0
     doc = 0
-    chunk = []
-    chunk_bytes = 0
-    with open(path, "w", encoding="utf-8") as f:
-        while written < target_bytes:
-            text, n = make_document(rng, vocab, cum)
-            doc += 1
-            line = json.dumps({
-                "id": "f%05d-d%07d" % (file_index, doc),
-                "text": text,
-                "meta": {"source": "synthetic", "words": n, "file": file_index},
-            }) + "\n"
-            chunk.append(line)
-            chunk_bytes += len(line)
-            written += len(line)
-            if chunk_bytes >= (8 << 20):
-                f.write("".join(chunk))
-                chunk, chunk_bytes = [], 0
-        f.write("".join(chunk))
-    if compress:
-        subprocess.run(["zstd", "-q", "-f", "-3", "-T1", path, "-o", path + ".zst"], check=True)
-        if not keep_plain:
-            os.remove(path)
-    return written, doc
+    while size < target:
+        text, n = make_document(rng, vocab, cum)
+        doc += 1
+        line = json.dumps({
+            "id": "f%05d-c%05d-d%05d" % (file_index, chunk_index, doc),
+            "text": text,
+            "meta": {"source": "synthetic", "words": n, "file": file_index},
+        }) + "\n"
+        lines.append(line)
+        size += len(line)
+    return "".join(lines), size, doc
 
 
 def main():
@@ -128,12 +128,31 @@ def main():
         ap.error("--files and --total-mb must be positive")
     os.makedirs(args.out_dir, exist_ok=True)
     per_file = int(args.total_mb * 1e6 / args.files)
-    jobs = [(os.path.join(args.out_dir, "%s-%05d.jsonl" % (args.prefix, i)), per_file,
-             args.seed, i, args.zstd, args.keep_plain, args.seed) for i in range(args.files)]
-    with multiprocessing.Pool(max(1, min(args.jobs, args.files))) as pool:
-        results = pool.map(write_file, jobs, chunksize=1)
-    total = sum(r[0] for r in results)
-    docs = sum(r[1] for r in results)
+    total = docs = 0
+    compressors = []
+    with multiprocessing.Pool(max(1, args.jobs)) as pool:
+        for i in range(args.files):
+            path = os.path.join(args.out_dir, "%s-%05d.jsonl" % (args.prefix, i))
+            n_chunks = max(1, -(-per_file // CHUNK_BYTES))
+            sizes = [per_file // n_chunks + (1 if k < per_file % n_chunks else 0)
+                     for k in range(n_chunks)]
+            jobs = [(sizes[k], args.seed, i, k, args.seed) for k in range(n_chunks)]
+            with open(path, "w", encoding="utf-8") as f:
+                for text, size, n in pool.imap(make_chunk, jobs):
+                    f.write(text)
+                    total += size
+                    docs += n
+            if args.zstd:
+                cmd = ["zstd", "-q", "-f", "-3", "-T1", path, "-o", path + ".zst"]
+                if not args.keep_plain:
+                    cmd.insert(2, "--rm")
+                compressors.append(subprocess.Popen(cmd))
+                # At most --jobs compressors at a time.
+                while len(compressors) >= max(1, args.jobs):
+                    compressors.pop(0).wait()
+    for c in compressors:
+        if c.wait() != 0:
+            sys.exit("gen_corpus: zstd failed")
     print("gen_corpus: %d files, %d documents, %.1f MB uncompressed, seed %d"
           % (args.files, docs, total / 1e6, args.seed), file=sys.stderr)
 
