@@ -14,6 +14,8 @@
 #include "test_util.h"
 #include "tidemark/clean.h"
 #include "tidemark/evidence.h"
+#include "tidemark/index_builder.h"
+#include "tidemark/probe.h"
 #include "tidemark/tokenizer.h"
 
 namespace tidemark {
@@ -197,6 +199,61 @@ TEST_CASE("evidence: an injected fingerprint collision is counted, never reporte
   REQUIRE(rep2.ok());
   CHECK(rep2->stats.collisions >= 1);
   CHECK(rep2->stats.verified == base->stats.verified);
+}
+
+TEST_CASE("evidence: against a real index and probe, with a moved corpus root", "[evidence]") {
+  if (!HaveRealText()) return;
+  Fixture f = MakeFixture("evidence_index");
+  // Index the gzip corpus, then move it: the manifest keeps the old path.
+  IndexBuildOptions bo;
+  bo.read = CorpusRead();
+  bo.shard_bits = 2;
+  IndexBuildStats bs;
+  Run("mkdir -p " + f.dir + "/old && cp " + f.corpus + " " + f.dir + "/old/");
+  REQUIRE(BuildIndex(f.dir + "/idx", {f.dir + "/old/gcide.jsonl.gz"}, bo, &bs).ok());
+  Run("mv " + f.dir + "/old " + f.dir + "/new");
+  auto index = Index::Open(f.dir + "/idx");
+  REQUIRE(index.ok());
+  BenchmarkSpec spec;
+  spec.name = "kjv";
+  spec.path = f.bench;
+  spec.read.fields = {"question"};
+  spec.read.id_field = "id";
+  auto probed = ProbeBenchmark(**index, spec, ProbeOptions{});
+  REQUIRE(probed.ok());
+  std::vector<BenchmarkResult> results = {*probed};
+  EvidenceOptions opt;
+  opt.max_occurrences_per_item = 1000;
+  // Without the remap the corpus is gone: an error naming the file, not silence.
+  auto missing = RunEvidencePass(results, f.dir + "/idx", opt);
+  CHECK(!missing.ok());
+  opt.root_remaps = {{f.dir + "/old", f.dir + "/new"}};
+  auto rep = RunEvidencePass(results, f.dir + "/idx", opt);
+  REQUIRE(rep.ok());
+  CHECK(rep->stats.unresolved == 0);
+  CHECK(rep->stats.collisions == 0);
+  // The probe flags the same items as the cleaning run (same n-grams, same corpus),
+  // and every one has evidence.
+  std::set<std::string> flagged, with_evidence, from_clean;
+  for (const ItemResult& it : probed->items) {
+    for (Verdict v : it.verdicts) {
+      if (v == Verdict::kContaminated) flagged.insert(it.id);
+    }
+  }
+  for (const ItemEvidence& it : rep->items) {
+    if (it.occurrences_total > 0) with_evidence.insert(it.id);
+  }
+  for (const ItemResult& it : f.results[0].items) {
+    if (it.verdicts[0] == Verdict::kContaminated) from_clean.insert(it.id);
+  }
+  CHECK(flagged == from_clean);
+  CHECK(with_evidence == flagged);
+  const std::string ev = f.dir + "/evidence.jsonl";
+  REQUIRE(WriteEvidenceJsonl(*rep, ev).ok());
+  const std::string checker = "/usr/bin/python3 " + SourceDir() + "/tests/unit/evidence/evidence_check.py ";
+  const std::string verdict = Run(checker + f.bench + " " + f.dir + "/new/gcide.jsonl.gz " + ev);
+  INFO(verdict);
+  CHECK(verdict.rfind("ok ", 0) == 0);
 }
 
 TEST_CASE("evidence: probe items JSONL and corpus root remapping", "[evidence]") {
