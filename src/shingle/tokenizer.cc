@@ -59,6 +59,23 @@ inline __m128i LowerAsciiWordBytes(__m128i v, uint32_t* word_mask) {
 }
 #endif
 
+// The code point of the 3-byte UTF-8 character at p if it is one of the common
+// ideographs, kana or Hangul syllables that NFKC_Casefold leaves unchanged and that
+// begin a cluster (shingle::IsStableIdeograph); 0 otherwise.
+inline char32_t DecodeStableIdeograph(const unsigned char* p, size_t avail) {
+  if (avail < 3 || p[0] < 0xE3 || p[0] > 0xED) return 0;
+  if ((p[1] & 0xC0) != 0x80 || (p[2] & 0xC0) != 0x80) return 0;
+  const char32_t cp = (static_cast<char32_t>(p[0] & 0x0F) << 12) |
+                      (static_cast<char32_t>(p[1] & 0x3F) << 6) | (p[2] & 0x3F);
+  return shingle::IsStableIdeograph(cp) ? cp : 0;
+}
+
+// True if the character at p certainly starts a new cluster: end of text, ASCII, or a
+// stable ideograph. (False means "look closer", not "joins".)
+inline bool NextStartsCluster(const unsigned char* p, size_t avail) {
+  return avail == 0 || p[0] < 0x80 || DecodeStableIdeograph(p, avail) != 0;
+}
+
 // The tokenizer proper; Tokenizer::Impl wraps it, the testing hook uses it directly.
 struct TokenizerCore {
   explicit TokenizerCore(const TextOptions& o)
@@ -89,6 +106,7 @@ template <bool kWithText, bool kAsciiFastPath>
   const auto* s = reinterpret_cast<const unsigned char*>(text.data());
   const size_t n = text.size();
   const uint64_t seed = options.seed;
+  const bool strip_accents = options.strip_accents;
   char* b = buf.data();
   size_t cap = buf.size();
   size_t len = 0;          // bytes in b
@@ -203,8 +221,23 @@ template <bool kWithText, bool kAsciiFastPath>
       i = j;
       continue;
     }
-    // A non-ASCII byte. If the fast path took the ASCII character just before it,
-    // take it back: it begins the cluster that this character may join.
+    // A non-ASCII byte. Common ideographs, kana and Hangul syllables followed by
+    // something that starts a new cluster are tokens of their own whose normalized form
+    // is their original bytes (checked for every such code point in
+    // tests/unit/shingle); they skip the cluster normalizer.
+    // (Not with accent stripping, which takes the voicing marks off kana.)
+    if constexpr (kAsciiFastPath) {
+      if (!strip_accents && DecodeStableIdeograph(s + i, n - i) != 0 &&
+          NextStartsCluster(s + i + 3, n - i - 3)) {
+        if (in_token) emit();
+        push(static_cast<uint32_t>(i), static_cast<uint32_t>(i + 3), text.data() + i, 3);
+        i += 3;
+        fast_from = i;
+        continue;
+      }
+    }
+    // If the fast path took the ASCII character just before it, take it back: it
+    // begins the cluster that this character may join.
     size_t start = i;
     if (i > fast_from) {
       start = i - 1;

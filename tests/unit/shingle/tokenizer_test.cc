@@ -8,6 +8,8 @@
 #include <tuple>
 #include <vector>
 
+#include "normalize/char_class.h"
+#include "normalize/normalizer.h"
 #include "shingle/tokenizer_testing.h"
 #include "test_util.h"
 #include "tidemark/tokenizer.h"
@@ -108,7 +110,9 @@ TEST_CASE("ASCII fast path is byte-identical to the full path", "[shingle][token
   const std::vector<std::string> pool = {
       "a", "Z", "e", "9", " ", ".", "-", "\t", "\xCC\x81", "\xC2\xAD", "\xC3\xA9", "\xC3\x9F",
       "\xE6\xBC\xA2", "\xE3\x82\x99", "\xC2\xBD", "\xEF\xBC\xA1", "\xFF", "\xE2\x82", "\xCE\xA3",
-      "\xE2\x80\x8D", "\xE1\x85\xA1", "\xE3\x83\xBC", "\xF0\x9F\x98\x80", "<", "\xCC\xB8"};
+      "\xE2\x80\x8D", "\xE1\x85\xA1", "\xE3\x83\xBC", "\xF0\x9F\x98\x80", "<", "\xCC\xB8",
+      "\xE3\x81\x8C" /*が*/, "\xEA\xB0\x80" /*가*/, "\xE1\x86\xA8" /*T jamo*/, "\xE3\x80\x82" /*。*/,
+      "\xE4\xB8\x80" /*一*/, "\xED\x9E\xA3" /*힣*/};
   for (bool strip : {false, true}) {
     o.strip_accents = strip;
     for (int iter = 0; iter < 5000; ++iter) {
@@ -118,6 +122,32 @@ TEST_CASE("ASCII fast path is byte-identical to the full path", "[shingle][token
       CheckFastPathIdentical(s, o);
     }
   }
+}
+
+TEST_CASE("Ideograph fast path set is stable under the rules", "[shingle][tokenize]") {
+  // Every code point that skips the cluster normalizer must be its own NFKC_Casefold,
+  // an ideograph-class character, and the start of a cluster.
+  size_t checked = 0, bad = 0;
+  for (char32_t cp = 0x3000; cp <= 0xD7FF; ++cp) {
+    if (!shingle::IsStableIdeograph(cp)) continue;
+    ++checked;
+    std::string one;
+    normalize::AppendUtf8(cp, &one);
+    const std::vector<Tok> got = Toks(one + one);
+    const bool ok = NormalizeText(one, TextOptions()) == one && got.size() == 2 &&
+                    got[0] == Tok{one, 0, 3} && got[1] == Tok{one, 3, 6} &&
+                    normalize::ClassifyCodePoint(cp) == normalize::CharClass::kIdeograph;
+    if (!ok && ++bad <= 5) FAIL_CHECK("U+" << std::hex << uint32_t(cp));
+  }
+  CHECK(checked == 0x5200 + 0x19C0 + 11172 + 86 + 90 + 1);
+  CHECK(bad == 0);
+  // Followed by a joining character, the cluster path decides: 가 + U+11A8 -> 각.
+  CHECK(Toks("\xEA\xB0\x80\xE1\x86\xA8") == std::vector<Tok>{{"\xEA\xB0\x81", 0, 6}});
+  CHECK(Toks("\xE3\x81\x8B\xE3\x82\x99") == std::vector<Tok>{{"\xE3\x81\x8C", 0, 6}});
+  // With accent stripping the voicing mark comes off (Mn), so が -> か.
+  TextOptions strip;
+  strip.strip_accents = true;
+  CHECK(Toks("\xE3\x81\x8C", strip) == std::vector<Tok>{{"\xE3\x81\x8B", 0, 3}});
 }
 
 // Span properties: in order, inside the text, overlapping only where one cluster gave
