@@ -7,7 +7,8 @@ corpus is its crawl. Three invented benchmarks were written by a fictional lab:
   tidequiz    short questions with answer choices (JSONL, choices as an array)
   harborread  longer reading passages with a question (JSON array)
   polyglot    short texts in French, German, Spanish and Italian (CSV)
-A few benchmark items were planted into the crawl, in different ways (verbatim,
+An invented vendor's fine-tuning file (vendor_finetune.jsonl) quotes three quiz
+items. A few benchmark items were planted into the crawl, in different ways (verbatim,
 case/punctuation changed, partial). data/demo/expected.json lists them, so the
 end-to-end test can check that every planted leak is found and the rest is clean.
 
@@ -264,10 +265,27 @@ def main():
             p = 0.95 if q["id"] in leaked else 0.55
             f.write(json.dumps({"id": q["id"], "correct": int(rng.random() < p)}) + "\n")
 
+    # Third-party fine-tuning data from an invented vendor: prompt/response pairs,
+    # three of which quote quiz items (to be dropped or redacted by `tidemark clean`).
+    vendor_leaks = ["tq-010", "tq-018", "tq-027"]
+    vendor = []
+    for i in range(400):
+        title, body = post(rng, rng.randint(2, 5))
+        vendor.append({"uid": f"v-{i:04d}", "prompt": f"Write a short forum reply titled '{title}'.",
+                       "response": body, "license": "vendor-demo"})
+    for k, item in enumerate(vendor_leaks):
+        q = by_quiz[item]
+        vendor[50 + 120 * k]["prompt"] = q["question"] + " Options: " + "; ".join(q["choices"])
+    with open(os.path.join(out, "vendor_finetune.jsonl"), "w", encoding="utf-8") as f:
+        for v in vendor:
+            f.write(json.dumps(v, ensure_ascii=False) + "\n")
+
     expected = {
         "planted": [{"benchmark": b, "id": i, "kind": k,
                      "corpus_doc": docs[planted_in[(b, i)]]["id"]} for b, i, k, _ in plants],
         "too_short": ["tidequiz/tq-041", "tidequiz/tq-042"],
+        "vendor_leaks": [{"uid": vendor[50 + 120 * k]["uid"], "item": it}
+                         for k, it in enumerate(vendor_leaks)],
         "template_ngram_source": "quiz instruction field, quoted in 5 forum posts",
     }
     with open(os.path.join(out, "expected.json"), "w", encoding="utf-8") as f:

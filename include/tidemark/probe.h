@@ -98,6 +98,7 @@ std::string_view Llama2BinName(Llama2Bin bin);  // "too_short", "clean", "mixed"
 struct ItemResult {
   std::string id;
   uint64_t line = 0;                   ///< in the benchmark file
+  std::string text;                    ///< the whole item text (fields joined); spans index it
   OverlapResult whole;                 ///< all fields joined
   std::vector<OverlapResult> fields;   ///< one per BenchmarkSpec field
   std::vector<Verdict> verdicts;       ///< one per rule (on `whole`)

@@ -20,6 +20,7 @@ void SetHandler(Handler handler);
 void RegisterClean(CLI::App& app);
 void RegisterEvidence(CLI::App& app);
 void RegisterIndex(CLI::App& app);
+void RegisterProbe(CLI::App& app);
 void RegisterTokens(CLI::App& app);
 
 }  // namespace tidemark::cli

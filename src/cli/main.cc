@@ -29,6 +29,7 @@ int main(int argc, char** argv) {
   app.add_flag("--no-progress", g.no_progress, "Do not show progress lines");
 
   // Subcommands register here (see commands.h).
+  RegisterProbe(app);
   RegisterClean(app);
   RegisterEvidence(app);
   RegisterIndex(app);

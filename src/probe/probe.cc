@@ -238,6 +238,7 @@ Result<BenchmarkResult> ProbeBenchmark(const Index& index, const BenchmarkSpec& 
                         ItemResult& r = result.items[i];
                         r.id = it.id;
                         r.line = it.line;
+                        r.text = it.whole;
                         ComputeOverlap(it.whole_tokens, it.whole_fps, n, table, options,
                                        template_min_items, &r.whole);
                         r.fields.resize(it.fields.size());

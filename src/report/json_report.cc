@@ -306,6 +306,11 @@ void AppendOverlap(std::string* out, const OverlapResult& o, const std::vector<R
     AppendUint(out, s.byte_end);
     *out += "]";
   }
+  *out += "], \"hit_fingerprints\": [";
+  for (size_t i = 0; i < o.hit_fingerprints.size(); ++i) {
+    if (i > 0) *out += ", ";
+    AppendJsonString(out, Hex64(o.hit_fingerprints[i]));
+  }
   *out += "]}";
 }
 
