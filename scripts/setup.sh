@@ -14,7 +14,8 @@ build_pkgs=(
 test_pkgs=(
   python3 python3-statsmodels python3-scipy python3-xxhash xxhash unicode-data
   bible-kjv bible-kjv-text dict-gcide dict-devil wordnet-base
-  fortunes-min fortunes-de fortunes-zh miscfiles bsdgames
+  fortunes-min fortunes-de fortunes-zh miscfiles bsdgames bzip2 gzip
+  chromium fonts-dejavu-core
 )
 
 want=("${build_pkgs[@]}")

@@ -84,6 +84,13 @@ std::string BenchmarkNameFromPath(const std::string& path) {
   return p.string();
 }
 
+// 0.95 -> "95%".
+std::string FormatLevel(double level) {
+  char buf[32];
+  std::snprintf(buf, sizeof(buf), "%g%%", 100.0 * level);
+  return buf;
+}
+
 std::string NowIso8601() {
   const std::time_t t = std::time(nullptr);
   std::tm tm{};
@@ -304,14 +311,15 @@ int RunProbe(const ProbeFlags& flags) {
     for (const ImpactResult& r : impacts) AddImpactRows(r, &html.impact);
     if (!impacts.empty()) {
       html.impact_note = "Items split by the verdicts of rule '" + impacts[0].rule +
-                         "'; intervals at " + std::to_string(plan.level) +
+                         "'; intervals at " + FormatLevel(plan.level) +
                          ". Too-short items are in neither group.";
       if (s.ok()) s = WriteImpactJson(impacts, plan.level, d + "/impact.json");
     }
     if (s.ok()) s = WriteHtmlReport(html, d + "/report.html");
     if (!s.ok()) return ReportError(s);
     Info("reports written to " + d + "/ (report.json, report.html, summary.md, items.jsonl, "
-         "items.csv" + std::string(flags.evidence ? ", evidence.jsonl" : "") + ")");
+         "items.csv" + std::string(flags.evidence ? ", evidence.jsonl" : "") +
+         std::string(impacts.empty() ? "" : ", impact.json") + ")");
   }
   std::string table = RenderTerminalTable(*summary);
   if (!impacts.empty()) table += "\n" + RenderImpactMarkdown(impacts, plan.level);
