@@ -42,6 +42,10 @@ class IndexImpl final : public Index {
     assert(out.size() == fps.size());
     const uint32_t s = manifest_.shard_bits;
     const size_t nseg = num_segments_;
+    if (nseg == 0) {
+      std::fill(out.begin(), out.end(), NgramInfo{});
+      return;
+    }
     // In groups, so that the cache misses of a group overlap: prefetch all Bloom
     // blocks, then test them and prefetch the directory entries of the maybes, then
     // confirm exactly.

@@ -59,6 +59,7 @@ TEST_CASE("KJV n-grams and counts equal an independent Python computation",
     o.text.seed = c.seed;
     o.shard_bits = c.shard_bits;
     o.threads = 2;
+    o.memory_budget = 256ull << 20;
     IndexBuildStats st;
     Status s = BuildIndex(dir + "/idx", {corpus}, o, &st);
     REQUIRE(s.ok());

@@ -400,3 +400,64 @@ TEST_CASE("ParseByteSize accepts 512M and 4G", "[index][options]") {
 
 }  // namespace
 }  // namespace tidemark
+
+namespace tidemark {
+namespace {
+
+// A JSON Lines corpus big enough that a build takes a while (about 40 MB).
+std::string WriteBigCorpus(const std::string& dir) {
+  const std::string path = dir + "/big.jsonl";
+  std::string data;
+  testing::SplitMix64 rng(77);
+  for (int r = 0; r < 40000; ++r) {
+    data += "{\"text\": \"";
+    for (int w = 0; w < 150; ++w) {
+      data += "w" + std::to_string(rng.Next() % 50000) + " ";
+    }
+    data += "\"}\n";
+  }
+  testing::WriteFile(path, data);
+  return path;
+}
+
+TEST_CASE("kill -9 or Ctrl-C during a CLI build leaves no index; the next build cleans up",
+          "[index][faults][cli]") {
+  const std::string base = testing::ScratchDir("kill");
+  const std::string corpus = WriteBigCorpus(base);
+  for (const char* sig : {"KILL", "INT"}) {
+    INFO("signal " << sig);
+    const std::string dir = base + "/idx-" + sig;
+    int rc = 0;
+    // Start the build, signal it after 0.5 s, report how it ended.
+    const std::string out = testing::RunCommand(
+        "(" + testing::CliPath() + " -q index build --memory 64M --threads 2 -n 5 -o " + dir +
+            " " + corpus + " & pid=$!; sleep 0.5; kill -" + sig +
+            " $pid; wait $pid; echo exit=$?) 2>&1",
+        &rc);
+    INFO(out);
+    const bool interrupted = out.find("exit=0") == std::string::npos;
+    if (!interrupted) {
+      WARN("the build finished before the signal; nothing to check");
+      continue;
+    }
+    if (std::string(sig) == "INT") CHECK(out.find("exit=130") != std::string::npos);
+    auto idx = Index::Open(dir);
+    CHECK(idx.status().code() == StatusCode::kNotFound);
+    if (std::string(sig) == "INT") {
+      // The interrupted build removed its own temporary files.
+      for (const auto& name : testing::ListTree(dir)) CHECK(name == "LOCK");
+    }
+    testing::RunCommand(testing::CliPath() + " -q index build --threads 2 -n 5 -o " + dir + " " +
+                            corpus + " 2>&1",
+                        &rc);
+    CHECK(rc == 0);
+    CHECK(Index::Open(dir).ok());
+    for (const auto& name : testing::ListTree(dir)) {
+      CHECK((name == "LOCK" || name == "manifest.json" || name.rfind("seg-000001", 0) == 0));
+      CHECK(name.find(".tmp") == std::string::npos);
+    }
+  }
+}
+
+}  // namespace
+}  // namespace tidemark
