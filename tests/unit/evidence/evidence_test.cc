@@ -208,6 +208,11 @@ TEST_CASE("evidence: against a real index and probe, with a moved corpus root", 
   IndexBuildOptions bo;
   bo.read = CorpusRead();
   bo.shard_bits = 2;
+  // One build worker: with several, ASan reports a heap-use-after-free inside the
+  // index builder (a worker parses a block whose LineBlock::path belongs to a
+  // BlockReader another worker has already closed; src/index/index_builder.cc Work).
+  // Reported to the index owner; this test is about the evidence pass.
+  bo.threads = 1;
   IndexBuildStats bs;
   Run("mkdir -p " + f.dir + "/old && cp " + f.corpus + " " + f.dir + "/old/");
   REQUIRE(BuildIndex(f.dir + "/idx", {f.dir + "/old/gcide.jsonl.gz"}, bo, &bs).ok());
