@@ -55,11 +55,17 @@ std::string_view SampleIntervalMethodName(SampleIntervalMethod method);
 Result<Interval> WilsonFpcInterval(uint64_t x, uint64_t n, uint64_t population,
                                    double level);
 
+/// Largest population HypergeometricInterval accepts: Boost 1.74's
+/// hypergeometric_distribution takes unsigned counts and computes n + M - N in
+/// int, which overflows unless n + M <= INT_MAX; 2^30 - 1 keeps it safe for any
+/// n, M <= N.
+inline constexpr uint64_t kMaxExactPopulation = (uint64_t{1} << 30) - 1;
+
 /// Exact interval for the same setting: the smallest and largest population
 /// counts M whose hypergeometric tail probabilities P(X >= x | M) and
 /// P(X <= x | M) exceed (1 - level) / 2, divided by N (the finite-population
-/// analogue of Clopper-Pearson). REQUIRES population < 2^32 (Boost's
-/// hypergeometric distribution takes unsigned counts): InvalidArgument otherwise.
+/// analogue of Clopper-Pearson). Populations up to kMaxExactPopulation only:
+/// InvalidArgument beyond.
 Result<Interval> HypergeometricInterval(uint64_t x, uint64_t n, uint64_t population,
                                         double level);
 

@@ -161,8 +161,9 @@ Result<Interval> HypergeometricInterval(uint64_t x, uint64_t n, uint64_t populat
                                         double level) {
   TM_RETURN_IF_ERROR(CheckSample(x, n, population));
   TM_RETURN_IF_ERROR(CheckLevel(level));
-  if (population > std::numeric_limits<unsigned>::max()) {
-    return Status::InvalidArgument("exact sample interval supports populations below 2^32, got " +
+  if (population > kMaxExactPopulation) {
+    return Status::InvalidArgument("exact sample interval supports populations up to " +
+                                   std::to_string(kMaxExactPopulation) + ", got " +
                                    std::to_string(population));
   }
   const double alpha2 = (1.0 - level) / 2.0;

@@ -75,15 +75,20 @@ Status FinishScope(const ReportContext& ctx, const std::vector<Rule>& rules, boo
       const uint64_t x = rate.contaminated, n = s.judged;
       rate.rate = static_cast<double>(x) / static_cast<double>(n);
       if (sample_mode) {
-        TM_ASSIGN_OR_RETURN(const Interval exact,
-                            HypergeometricInterval(x, n, s.judged_population, ctx.level));
         TM_ASSIGN_OR_RETURN(const Interval fpc,
                             WilsonFpcInterval(x, n, s.judged_population, ctx.level));
-        const NamedInterval e{"hypergeometric", exact}, w{"wilson_fpc", fpc};
-        if (ctx.sample_interval == SampleIntervalMethod::kHypergeometric) {
-          rate.intervals = {e, w};
+        const NamedInterval w{"wilson_fpc", fpc};
+        if (s.judged_population > kMaxExactPopulation) {
+          rate.intervals = {w};  // beyond the exact method's range (stats.h)
         } else {
-          rate.intervals = {w, e};
+          TM_ASSIGN_OR_RETURN(const Interval exact,
+                              HypergeometricInterval(x, n, s.judged_population, ctx.level));
+          const NamedInterval e{"hypergeometric", exact};
+          if (ctx.sample_interval == SampleIntervalMethod::kHypergeometric) {
+            rate.intervals = {e, w};
+          } else {
+            rate.intervals = {w, e};
+          }
         }
       } else {
         TM_ASSIGN_OR_RETURN(const Interval wilson, WilsonInterval(x, n, ctx.level));

@@ -204,6 +204,14 @@ TEST_CASE("summary counts, rates and intervals", "[report]") {
   CHECK(bi.rules[0].intervals[1].method == "wilson_fpc");
   CHECK(bi.rules[0].intervals[1].ci.upper == WilsonFpcInterval(4, 38, 950, 0.95)->upper);
 
+  // Beyond the exact method's range, Wilson-FPC alone.
+  BenchmarkResult huge = Big();
+  huge.population = 2000000000;
+  const auto hs = Summarize({huge}, Context());
+  REQUIRE(hs.ok());
+  REQUIRE(hs->benchmarks[0].scopes[0].rules[0].intervals.size() == 1);
+  CHECK(hs->benchmarks[0].scopes[0].rules[0].intervals[0].method == "wilson_fpc");
+
   ReportContext c = Context();
   c.sample_interval = SampleIntervalMethod::kWilsonFpc;
   CHECK(Summarize({Big()}, c)->benchmarks[0].scopes[0].rules[0].intervals[0].method ==
@@ -233,7 +241,7 @@ TEST_CASE("summary rejects bad input", "[report]") {
   CHECK(r.status().message().find("'q3'") != std::string::npos);
 }
 
-TEST_CASE("--fail-above compares whole-item rates strictly", "[report]") {
+TEST_CASE("AnyRateAbove (--fail-above) compares whole-item rates strictly", "[report]") {
   const auto s = Summarize({Quiz()}, Context());
   REQUIRE(s.ok());
   // Highest whole-item rate: gpt3, 3/5 = 0.6. Field "answer" has no judged item.

@@ -80,8 +80,9 @@ TEST_CASE("interval arguments are validated", "[stats]") {
   CHECK(WilsonInterval(3, 2, 0.95).status().code() == StatusCode::kInvalidArgument);
   CHECK(ClopperPearsonInterval(1, 2, 1.5).status().code() == StatusCode::kInvalidArgument);
   CHECK(WilsonFpcInterval(1, 11, 10, 0.95).status().code() == StatusCode::kInvalidArgument);
-  CHECK(HypergeometricInterval(1, 5, uint64_t{1} << 33, 0.95).status().code() ==
+  CHECK(HypergeometricInterval(1, 5, kMaxExactPopulation + 1, 0.95).status().code() ==
         StatusCode::kInvalidArgument);
+  CHECK(HypergeometricInterval(1, 5, kMaxExactPopulation, 0.95).ok());
   CHECK(NewcombeDifferenceInterval(1, 0, 1, 2, 0.95).status().code() ==
         StatusCode::kInvalidArgument);
 }
@@ -116,7 +117,7 @@ TEST_CASE("finite-population intervals: limits and properties", "[stats]") {
   CHECK(std::abs(f.lower - w.lower) < 1e-6);
   CHECK(std::abs(f.upper - w.upper) < 1e-6);
   const auto cp = *ClopperPearsonInterval(12, 300, 0.95);
-  h = *HypergeometricInterval(12, 300, 4000000000ull, 0.95);
+  h = *HypergeometricInterval(12, 300, kMaxExactPopulation, 0.95);
   CHECK(std::abs(h.lower - cp.lower) < 1e-5);
   CHECK(std::abs(h.upper - cp.upper) < 1e-5);
   // Sampling half the population narrows the interval (by about sqrt(1/2)).
