@@ -7,6 +7,7 @@
 //    "fingerprints":[{"i":0,"fp":"9f3c..."},...]}
 // b and e are byte offsets [b, e) into the record's text (the selected fields joined
 // with "\n"); fingerprint i covers tokens i .. i+n-1; fp is 16 hex digits.
+// --table prints the same for people instead.
 #include <cstdio>
 #include <memory>
 #include <string>
@@ -35,6 +36,7 @@ struct TokensArgs {
   uint64_t seed = 0;
   bool strip_accents = false;
   bool no_fingerprints = false;
+  bool table = false;
   std::string output;
 };
 
@@ -117,6 +119,67 @@ void AppendRecordJson(const std::string& source, uint64_t line, const std::strin
   totals->invalid_utf8 += invalid;
 }
 
+// Terminal columns, roughly: one per character, two for the CJK and Hangul ranges
+// (UTF-8 lead bytes E3..ED, F0: U+3000..U+DFFF and the ideographic planes).
+size_t DisplayWidth(std::string_view s) {
+  size_t w = 0;
+  for (unsigned char c : s) {
+    if ((c & 0xC0) == 0x80) continue;
+    w += (c >= 0xE3 && c <= 0xED) || c == 0xF0 ? 2 : 1;
+  }
+  return w;
+}
+
+// --table: the same content for people, one block per record:
+//   --text:1  9 tokens, 7 3-gram fingerprints, 0 invalid UTF-8 bytes
+//     token   0  hello        bytes 0..15    "Ｈｅｌｌｏ"
+//     print   0  176fb98676ba355d  tokens 0..2  hello naïve coop
+void AppendRecordTable(const std::string& source, uint64_t line, const std::string& id,
+                       std::string_view text, const TextOptions& options, bool fingerprints,
+                       Tokenizer* tokenizer, Totals* totals, std::string* out) {
+  std::vector<Token> tokens;
+  std::vector<std::string> normalized;
+  const uint64_t invalid_before = tokenizer->invalid_utf8_bytes();
+  tokenizer->TokenizeWithText(text, &tokens, &normalized);
+  const uint64_t invalid = tokenizer->invalid_utf8_bytes() - invalid_before;
+  std::vector<uint64_t> fps;
+  if (fingerprints) ComputeFingerprints(tokens, options, &fps);
+  out->clear();
+  *out += source + ":" + std::to_string(line);
+  if (id != std::to_string(line)) *out += " id " + id;
+  *out += "  " + std::to_string(tokens.size()) + " tokens";
+  if (fingerprints) {
+    *out += ", " + std::to_string(fps.size()) + " " + std::to_string(options.ngram) +
+            "-gram fingerprints";
+  }
+  *out += ", " + std::to_string(invalid) + " invalid UTF-8 bytes\n";
+  char buf[64];
+  for (size_t i = 0; i < tokens.size(); ++i) {
+    std::snprintf(buf, sizeof buf, "  token %4zu  ", i);
+    *out += buf;
+    *out += normalized[i];
+    const size_t width = DisplayWidth(normalized[i]);
+    *out += std::string(width < 14 ? 14 - width : 1, ' ');
+    std::snprintf(buf, sizeof buf, "%u..%u", tokens[i].begin, tokens[i].end);
+    std::string span = std::string(" bytes ") + buf;
+    if (span.size() < 18) span.resize(18, ' ');
+    *out += span;
+    *out += "\"" + ClipExcerpt(text.substr(tokens[i].begin, tokens[i].end - tokens[i].begin), 40) +
+            "\"\n";
+  }
+  for (size_t i = 0; i < fps.size(); ++i) {
+    std::snprintf(buf, sizeof buf, "  print %4zu  %s  tokens %zu..%zu ", i, Hex64(fps[i]).c_str(), i,
+                  i + static_cast<size_t>(options.ngram) - 1);
+    *out += buf;
+    for (size_t k = i; k < i + static_cast<size_t>(options.ngram); ++k) *out += " " + normalized[k];
+    *out += "\n";
+  }
+  ++totals->records;
+  totals->tokens += tokens.size();
+  totals->fingerprints += fps.size();
+  totals->invalid_utf8 += invalid;
+}
+
 Result<InputFormat> ParseFormat(const std::string& f) {
   if (f == "auto") return InputFormat::kAuto;
   if (f == "jsonl") return InputFormat::kJsonl;
@@ -152,8 +215,9 @@ int Run(const TokensArgs& a) {
   SkipStats skips;
   std::string line;
   for (size_t i = 0; i < a.texts.size(); ++i) {
-    AppendRecordJson("--text", i + 1, std::to_string(i + 1), a.texts[i], options,
-                     !a.no_fingerprints, &tokenizer, &totals, &line);
+    (a.table ? AppendRecordTable : AppendRecordJson)("--text", i + 1, std::to_string(i + 1),
+                                                     a.texts[i], options, !a.no_fingerprints,
+                                                     &tokenizer, &totals, &line);
     if (Status s = sink.Write(line); !s.ok()) return ReportError(s);
   }
   if (!a.inputs.empty()) {
@@ -168,8 +232,9 @@ int Run(const TokensArgs& a) {
         Result<bool> more = (*reader)->Next(&rec);
         if (!more.ok()) return ReportError(more.status());
         if (!*more) break;
-        AppendRecordJson(path, rec.line, rec.id, rec.text, options, !a.no_fingerprints, &tokenizer,
-                         &totals, &line);
+        (a.table ? AppendRecordTable : AppendRecordJson)(path, rec.line, rec.id, rec.text, options,
+                                                         !a.no_fingerprints, &tokenizer, &totals,
+                                                         &line);
         if (Status s = sink.Write(line); !s.ok()) return ReportError(s);
       }
       skips.Add((*reader)->skips());
@@ -215,6 +280,9 @@ void RegisterTokens(CLI::App& app) {
   c->add_option("--seed", a->seed, "Hash seed for tokens and fingerprints (default 0)");
   c->add_flag("--strip-accents", a->strip_accents, "Strip accents (nonspacing marks)");
   c->add_flag("--no-fingerprints", a->no_fingerprints, "Print the tokens only");
+  c->add_flag("--table", a->table,
+              "Readable text instead of JSON Lines: each token with its original bytes, each "
+              "fingerprint with its tokens");
   c->add_option("-o,--output", a->output, "Write to FILE instead of stdout (atomically)");
   c->add_option("inputs", a->inputs, "Input files, directories or @lists");
   c->callback([a] { SetHandler([a] { return Run(*a); }); });

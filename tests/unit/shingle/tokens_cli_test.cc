@@ -2,6 +2,7 @@
 // /usr/bin/python3), must carry exactly the library's tokens, spans and fingerprints.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -80,6 +81,22 @@ TEST_CASE("tokens CLI output matches the library", "[shingle][cli]") {
   CHECK(rc == 0);
   CHECK(got == Expected(dir + "/c.jsonl", 1, "gen1",
                         "In the beginning God created the heaven and the earth.", o));
+  // --table: one header line, a line per token and per fingerprint, the same values.
+  got = testing::RunCommand(cli + "--table " + dir + "/t2.txt", &rc);
+  CHECK(rc == 0);
+  {
+    Tokenizer tk(o);
+    std::vector<Token> tokens;
+    std::vector<std::string> norm;
+    tk.TokenizeWithText(text2, &tokens, &norm);
+    std::vector<uint64_t> fps;
+    ComputeFingerprints(tokens, o, &fps);
+    CHECK(static_cast<size_t>(std::count(got.begin(), got.end(), '\n')) == 1 + tokens.size() + fps.size());
+    CHECK(got.find("  token    2  beginning") != std::string::npos);
+    CHECK(got.find("bytes 7..16") != std::string::npos);
+    CHECK(got.find("  print    0  " + Hex64(fps[0]) + "  tokens 0..2  in the beginning") != std::string::npos);
+    CHECK(got.find(" 1 invalid UTF-8 bytes") != std::string::npos);
+  }
   // Usage errors: nothing to tokenize (2); a bad option value (InvalidArgument).
   testing::RunCommand(testing::CliPath() + " tokens 2>/dev/null", &rc);
   CHECK(rc == 2);
