@@ -68,17 +68,39 @@ uint64_t SegmentBuilder::ngrams_total() const {
 
 Status SegmentBuilder::AddDocument(int worker, std::vector<uint64_t>* fps) {
   Worker& w = workers_[static_cast<size_t>(worker)];
-  std::vector<uint64_t>& v = *fps;
+  const std::vector<uint64_t>& v = *fps;
   w.ngrams += v.size();
-  std::sort(v.begin(), v.end());
-  for (size_t i = 0; i < v.size();) {
-    size_t j = i + 1;
-    while (j < v.size() && v[j] == v[i]) ++j;
-    const size_t more = j - i > 1 ? 3 : 1;
-    if (Full(w, more)) TM_RETURN_IF_ERROR(Spill(&w));
-    w.main.push_back(v[i]);
-    if (j - i > 1) w.extras.push_back({v[i], static_cast<uint64_t>(j - i - 1)});
-    i = j;
+  DocSet& d = w.doc;
+  size_t cap = 64;
+  while (cap < 2 * v.size()) cap *= 2;
+  if (d.keys.size() < cap) {
+    d.keys.assign(cap, 0);
+    d.stamp.assign(cap, 0);
+    d.count.assign(cap, 0);
+  }
+  if (++d.gen == 0) {  // stamps wrapped: forget them all
+    std::fill(d.stamp.begin(), d.stamp.end(), 0);
+    d.gen = 1;
+  }
+  const size_t mask = cap - 1;  // a power of two <= the table size
+  d.used.clear();
+  for (const uint64_t fp : v) {
+    size_t i = static_cast<size_t>(fp ^ (fp >> 29)) & mask;  // fingerprints are uniform
+    while (d.stamp[i] == d.gen && d.keys[i] != fp) i = (i + 1) & mask;
+    if (d.stamp[i] == d.gen) {
+      ++d.count[i];
+    } else {
+      d.stamp[i] = d.gen;
+      d.keys[i] = fp;
+      d.count[i] = 1;
+      d.used.push_back(static_cast<uint32_t>(i));
+    }
+  }
+  for (const uint32_t i : d.used) {
+    const bool repeated = d.count[i] > 1;
+    if (Full(w, repeated ? 3 : 1)) TM_RETURN_IF_ERROR(Spill(&w));
+    w.main.push_back(d.keys[i]);
+    if (repeated) w.extras.push_back({d.keys[i], static_cast<uint64_t>(d.count[i] - 1)});
   }
   return Status::Ok();
 }

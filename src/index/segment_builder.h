@@ -58,7 +58,7 @@ class SegmentBuilder {
                  ProgressReporter* progress);
   ~SegmentBuilder();
 
-  /// Adds one document. Sorts *fps in place. REQUIRES: 0 <= worker < workers.
+  /// Adds one document (its fingerprints in any order). REQUIRES: 0 <= worker < workers.
   Status AddDocument(int worker, std::vector<uint64_t>* fps);
 
   /// Merges everything into `staging_dir`/shard-NNNNN.tms (with `threads` threads)
@@ -70,10 +70,20 @@ class SegmentBuilder {
   uint64_t ngrams_total() const;
 
  private:
+  // Per-document distinct counting in O(n): an open-addressing set reused across
+  // documents (a slot is live when its stamp equals the current document's).
+  struct DocSet {
+    std::vector<uint64_t> keys;
+    std::vector<uint32_t> stamp;
+    std::vector<uint32_t> count;
+    std::vector<uint32_t> used;  // live slots in first-seen order
+    uint32_t gen = 0;
+  };
   struct Worker {
     std::vector<uint64_t> main;
     std::vector<ExtraCount> extras;
     uint64_t ngrams = 0;
+    DocSet doc;
   };
   Status Spill(Worker* w);
   bool Full(const Worker& w, size_t more) const {

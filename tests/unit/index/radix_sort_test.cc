@@ -23,6 +23,15 @@ TEST_CASE("RadixSort64 sorts like std::sort", "[index][sort]") {
     RadixSort64(v.data(), v.size());
     CHECK(v == want);
   }
+  // Skewed: one top byte for all keys (the in-place MSD path), and a few top bytes.
+  for (const uint64_t mask : {0x00FFFFFFFFFFFFFFull, 0x03FFFFFFFFFFFFFFull}) {
+    std::vector<uint64_t> v(200000);
+    for (auto& x : v) x = (rng.Next() & mask) | 0x4000000000000000ull;
+    std::vector<uint64_t> want = v;
+    std::sort(want.begin(), want.end());
+    RadixSort64(v.data(), v.size());
+    CHECK(v == want);
+  }
 }
 
 }  // namespace
