@@ -1,6 +1,6 @@
 // FingerprintMap: a flat open-addressing hash map from 64-bit fingerprints to a
 // small value. Fingerprints are already XXH3 outputs, so their low bits index the
-// table directly (no re-hashing); linear probing, load factor <= 1/2.
+// table directly (no re-hashing); linear probing, load factor <= 2/3.
 //
 // Thread safety: concurrent Find on a map nobody modifies is safe; Insert is not.
 #ifndef TIDEMARK_SRC_COMMON_FINGERPRINT_MAP_H_
@@ -16,11 +16,13 @@ namespace tidemark {
 template <typename V>
 class FingerprintMap {
  public:
-  explicit FingerprintMap(size_t expected = 16) { Rehash(std::bit_ceil(expected * 2 + 16)); }
+  explicit FingerprintMap(size_t expected = 16) {
+    Rehash(std::bit_ceil(expected + expected / 2 + 16));
+  }
 
   /// The value for `fp`, inserted as V{} if absent.
   V& operator[](uint64_t fp) {
-    if ((size_ + 1) * 2 > slots_.size()) Rehash(slots_.size() * 2);
+    if ((size_ + 1) * 3 > slots_.size() * 2) Rehash(slots_.size() * 2);  // load <= 2/3
     size_t i = fp & mask_;
     while (true) {
       Slot& s = slots_[i];

@@ -39,8 +39,7 @@ struct LoadedItem {
 /// Per distinct fingerprint: what the index said and how many items hold it.
 struct FpEntry {
   NgramInfo info;
-  uint32_t items = 0;  // distinct items whose whole text contains it
-  uint32_t slot = 0;   // position in the lookup batch
+  uint32_t items = 0;  // distinct items whose text contains it
 };
 
 // Knuth's selection sampling (TAOCP vol. 2, 3.4.2, Algorithm S): a uniform random
@@ -179,6 +178,8 @@ Result<BenchmarkResult> ProbeBenchmark(const Index& index, const BenchmarkSpec& 
                         LoadedItem& it = items[i];
                         tok.Tokenize(it.whole, &it.whole_tokens);
                         ComputeFingerprints(it.whole_tokens, text, &it.whole_fps);
+                        // One field: its text is the whole item's; its tokens too.
+                        if (it.fields.size() == 1 && it.fields[0] == it.whole) continue;
                         it.field_tokens.resize(it.fields.size());
                         it.field_fps.resize(it.fields.size());
                         for (size_t f = 0; f < it.fields.size(); ++f) {
@@ -189,7 +190,9 @@ Result<BenchmarkResult> ProbeBenchmark(const Index& index, const BenchmarkSpec& 
                     });
 
   // 3. Distinct fingerprints, with the number of items holding each (template filter).
-  FingerprintMap<FpEntry> table(items.size() * 64);
+  size_t total_fps = 0;
+  for (const LoadedItem& it : items) total_fps += it.whole_fps.size();
+  FingerprintMap<FpEntry> table(total_fps);
   std::vector<uint64_t> batch;
   std::vector<uint64_t> distinct;
   for (const LoadedItem& it : items) {
@@ -198,11 +201,7 @@ Result<BenchmarkResult> ProbeBenchmark(const Index& index, const BenchmarkSpec& 
     std::sort(distinct.begin(), distinct.end());
     distinct.erase(std::unique(distinct.begin(), distinct.end()), distinct.end());
     for (uint64_t fp : distinct) {
-      FpEntry& e = table[fp];
-      if (e.items++ == 0) {
-        e.slot = static_cast<uint32_t>(batch.size());
-        batch.push_back(fp);
-      }
+      if (table[fp].items++ == 0) batch.push_back(fp);
     }
   }
 
@@ -224,28 +223,29 @@ Result<BenchmarkResult> ProbeBenchmark(const Index& index, const BenchmarkSpec& 
     template_min_items =
         std::max<uint32_t>(options.min_template_items, static_cast<uint32_t>(limit) + 1);
   }
-  for (uint64_t fp : batch) {
-    FpEntry* e = table.Find(fp);
-    e->info = infos[e->slot];
-  }
+  for (size_t i = 0; i < batch.size(); ++i) table.Find(batch[i])->info = infos[i];
 
   // 5. Per-item overlap and verdicts, in parallel.
   result.items.resize(items.size());
   tbb::parallel_for(tbb::blocked_range<size_t>(0, items.size(), 64),
                     [&](const tbb::blocked_range<size_t>& range) {
                       for (size_t i = range.begin(); i != range.end(); ++i) {
-                        const LoadedItem& it = items[i];
+                        LoadedItem& it = items[i];
                         ItemResult& r = result.items[i];
-                        r.id = it.id;
+                        r.id = std::move(it.id);
                         r.line = it.line;
-                        r.text = it.whole;
                         ComputeOverlap(it.whole_tokens, it.whole_fps, n, table, options,
                                        template_min_items, &r.whole);
                         r.fields.resize(it.fields.size());
-                        for (size_t f = 0; f < it.fields.size(); ++f) {
-                          ComputeOverlap(it.field_tokens[f], it.field_fps[f], n, table, options,
-                                         template_min_items, &r.fields[f]);
+                        if (it.field_fps.empty() && it.fields.size() == 1) {
+                          r.fields[0] = r.whole;
+                        } else {
+                          for (size_t f = 0; f < it.fields.size(); ++f) {
+                            ComputeOverlap(it.field_tokens[f], it.field_fps[f], n, table,
+                                           options, template_min_items, &r.fields[f]);
+                          }
                         }
+                        r.text = std::move(it.whole);
                         r.verdicts.reserve(rules.size());
                         for (const Rule& rule : rules) {
                           r.verdicts.push_back(EvaluateRule(rule, r.whole));
