@@ -140,7 +140,8 @@ Status WriteEvidenceJsonl(const EvidenceReport& report, const std::string& path,
 /// hex strings, at the top level or under "item") and attaches the fingerprints to
 /// the items of `benchmarks` (matched by benchmark name and id; items listed there
 /// count as contaminated). `benchmarks` gives each benchmark's spec; its items are
-/// read from the benchmark file. NotFound for an unknown benchmark or id.
+/// read from the benchmark file. Lines of other benchmarks are skipped; NotFound
+/// for an unknown id.
 Result<std::vector<BenchmarkResult>> LoadProbeItems(const std::string& path,
                                                     const std::vector<BenchmarkSpec>& benchmarks);
 

@@ -360,6 +360,10 @@ class CorpusFeeder {
           continue;
         }
         Progress(o.get(), o->blocks->disk_bytes_read());
+        // The block outlives our hold on the reader: another worker may reach the end
+        // of the file and destroy the reader (and the path string it owns) while this
+        // block is parsed, so point at the path we own instead.
+        block.path = &paths_[o->index];
         Give(std::move(o));
         uint64_t n = 0;
         parser.Reset(&block);
