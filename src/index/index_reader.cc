@@ -46,12 +46,18 @@ class IndexImpl final : public Index {
       std::fill(out.begin(), out.end(), NgramInfo{});
       return;
     }
-    // In groups, so that the cache misses of a group overlap: prefetch all Bloom
-    // blocks, then test them and prefetch the directory entries of the maybes, then
-    // confirm exactly.
-    constexpr size_t kGroup = 16;
-    const ShardReader* maybe[kGroup * 4];
-    uint32_t maybe_i[kGroup * 4];
+    // In groups, so that the cache misses of a group overlap: each stage touches one
+    // new cache line per candidate and prefetches the line the next stage needs
+    // (Bloom block -> directory entry -> remainders -> counts).
+    constexpr size_t kGroup = 32;
+    constexpr size_t kMaxCand = kGroup * 4;
+    struct Cand {
+      const ShardReader* shard;
+      uint32_t i;  // position in the group
+      uint64_t lo, hi;
+      int64_t at;
+    };
+    Cand cand[kMaxCand];
     for (size_t base = 0; base < fps.size(); base += kGroup) {
       const size_t m = std::min(kGroup, fps.size() - base);
       for (size_t i = 0; i < m; ++i) {
@@ -60,24 +66,37 @@ class IndexImpl final : public Index {
         for (size_t g = 0; g < nseg; ++g) __builtin_prefetch(row[g]->bloom().BlockFor(fp));
         out[base + i] = NgramInfo{};
       }
-      size_t nm = 0;
+      size_t nc = 0;
       for (size_t i = 0; i < m; ++i) {
         const uint64_t fp = fps[base + i];
         const ShardReader* const* row = &readers_[fmt::ShardOf(fp, s) * nseg];
         for (size_t g = 0; g < nseg; ++g) {
           if (!row[g]->bloom().MayContain(fp)) continue;
-          if (nm == kGroup * 4) {  // many segments: confirm right away
+          if (nc == kMaxCand) {  // many segments: confirm right away
             row[g]->ExactInto(fp, &out[base + i]);
             continue;
           }
           __builtin_prefetch(row[g]->DirEntryFor(fp));
-          maybe[nm] = row[g];
-          maybe_i[nm] = static_cast<uint32_t>(i);
-          ++nm;
+          cand[nc++] = Cand{row[g], static_cast<uint32_t>(i), 0, 0, -1};
         }
       }
-      for (size_t j = 0; j < nm; ++j) {
-        maybe[j]->ExactInto(fps[base + maybe_i[j]], &out[base + maybe_i[j]]);
+      for (size_t j = 0; j < nc; ++j) {
+        Cand& c = cand[j];
+        c.shard->BucketRange(fps[base + c.i], &c.lo, &c.hi);
+        if (c.lo < c.hi) {
+          // A bucket's remainders span about 2-3 cache lines; fetch the first two.
+          __builtin_prefetch(c.shard->RemainderAddr(c.lo));
+          __builtin_prefetch(c.shard->RemainderAddr(c.lo) + 64);
+        }
+      }
+      for (size_t j = 0; j < nc; ++j) {
+        Cand& c = cand[j];
+        c.at = c.shard->FindInRange(fps[base + c.i], c.lo, c.hi);
+        if (c.at >= 0) c.shard->PrefetchCounts(static_cast<uint64_t>(c.at));
+      }
+      for (size_t j = 0; j < nc; ++j) {
+        const Cand& c = cand[j];
+        if (c.at >= 0) c.shard->AddCountsAt(static_cast<uint64_t>(c.at), &out[base + c.i]);
       }
     }
   }

@@ -200,27 +200,21 @@ uint32_t ShardReader::Decode(Which which, uint64_t i) const {
 
 int64_t ShardReader::Find(uint64_t fp) const {
   if (fmt::ShardOf(fp, s_) != shard_id_ || n_ == 0) return -1;
-  const uint64_t j = BucketOf(fp);
-  uint64_t hi = fmt::LoadLE32(dir_ + (j + 1) * 4);
-  uint64_t lo = fmt::LoadLE32(dir_ + j * 4);
-  if (hi > n_) hi = n_;  // clamp: never read outside a damaged file
-  if (lo > hi) lo = hi;
-  const uint64_t r = fp & rem_mask_;
-  for (uint64_t i = lo; i < hi; ++i) {
-    const uint64_t ri = RemainderAt(i);
-    if (ri == r) return static_cast<int64_t>(i);
-    if (ri > r) break;
-  }
-  return -1;
+  uint64_t lo, hi;
+  BucketRange(fp, &lo, &hi);
+  return FindInRange(fp, lo, hi);
+}
+
+void ShardReader::AddCountsAt(uint64_t i, NgramInfo* info) const {
+  const uint64_t c = static_cast<uint64_t>(info->count) + CountAt(i);
+  const uint64_t d = static_cast<uint64_t>(info->docs) + DocsAt(i);
+  info->count = static_cast<uint32_t>(c > fmt::kMaxCount ? fmt::kMaxCount : c);
+  info->docs = static_cast<uint32_t>(d > fmt::kMaxCount ? fmt::kMaxCount : d);
 }
 
 void ShardReader::ExactInto(uint64_t fp, NgramInfo* info) const {
   const int64_t i = Find(fp);
-  if (i < 0) return;
-  const uint64_t c = static_cast<uint64_t>(info->count) + CountAt(static_cast<uint64_t>(i));
-  const uint64_t d = static_cast<uint64_t>(info->docs) + DocsAt(static_cast<uint64_t>(i));
-  info->count = static_cast<uint32_t>(c > fmt::kMaxCount ? fmt::kMaxCount : c);
-  info->docs = static_cast<uint32_t>(d > fmt::kMaxCount ? fmt::kMaxCount : d);
+  if (i >= 0) AddCountsAt(static_cast<uint64_t>(i), info);
 }
 
 Status ShardReader::VerifyChecksums() const {

@@ -61,6 +61,32 @@ class ShardReader {
     const uint64_t bit = i * w_;
     return (index_format::LoadLE64(rem_ + (bit >> 3)) >> (bit & 7)) & rem_mask_;
   }
+  /// Staged exact lookup (the batched path prefetches between the stages):
+  /// the key range of fp's bucket, clamped to the file.
+  void BucketRange(uint64_t fp, uint64_t* lo, uint64_t* hi) const {
+    const uint64_t j = BucketOf(fp);
+    *hi = index_format::LoadLE32(dir_ + (j + 1) * 4);
+    *lo = index_format::LoadLE32(dir_ + j * 4);
+    if (*hi > n_) *hi = n_;
+    if (*lo > *hi) *lo = *hi;
+  }
+  const uint8_t* RemainderAddr(uint64_t i) const { return rem_ + ((i * w_) >> 3); }
+  /// Index of fp within [lo, hi), or -1. REQUIRES: fp is in this shard.
+  int64_t FindInRange(uint64_t fp, uint64_t lo, uint64_t hi) const {
+    const uint64_t r = fp & rem_mask_;
+    for (uint64_t i = lo; i < hi; ++i) {
+      const uint64_t ri = RemainderAt(i);
+      if (ri == r) return static_cast<int64_t>(i);
+      if (ri > r) break;
+    }
+    return -1;
+  }
+  void PrefetchCounts(uint64_t i) const {
+    __builtin_prefetch(counts_ + i);
+    __builtin_prefetch(docs_ + i);
+  }
+  /// Adds key i's count and doc count to *info (saturating).
+  void AddCountsAt(uint64_t i, NgramInfo* info) const;
   /// Address of fp's directory entry (prefetch).
   const uint8_t* DirEntryFor(uint64_t fp) const { return dir_ + BucketOf(fp) * 4; }
 
