@@ -132,7 +132,7 @@ int RunBuildOrAdd(const IndexFlags& f, bool add) {
   std::snprintf(line, sizeof(line),
                 "%s %s: %" PRIu64 " files (%s), %" PRIu64 " records, skipped: %s; %" PRIu64
                 " n-grams, %" PRIu64 " distinct, %s (%.2f bytes/n-gram), %" PRIu64
-                " spills; %.1f s, %.1f MB/s",
+                " spills; %.1f s, %.1f MB/s of input on disk",
                 add ? "added segment to" : "built", dir.c_str(), st.files,
                 FormatBytes(static_cast<double>(st.bytes_read)).c_str(), st.records,
                 SkipSummary(st.skips).c_str(), st.ngrams_total, st.ngrams_distinct,
