@@ -42,6 +42,7 @@ struct ProbeFlags {
   std::vector<std::string> model_results;  // NAME=FILE
   std::string impact_rule;
   std::string score_field;
+  bool skip_checksums = false;
 };
 
 void AddImpactRows(const ImpactResult& r, std::vector<HtmlImpactRow>* rows) {
@@ -189,7 +190,9 @@ int RunProbe(const ProbeFlags& flags) {
   if (!plan_or.ok()) return ReportError(plan_or.status());
   AuditPlan plan = std::move(plan_or).value();
 
-  auto index_or = Index::Open(plan.index_dir);
+  IndexOpenOptions open_options;
+  open_options.verify_checksums = !flags.skip_checksums;
+  auto index_or = Index::Open(plan.index_dir, open_options);
   if (!index_or.ok()) return ReportError(index_or.status());
   const Index& index = **index_or;
   if (flags.ngram > 0) {
@@ -370,6 +373,9 @@ void RegisterProbe(CLI::App& app) {
   sub->add_option("--fail-above", flags->fail_above,
                   "Exit 3 when some benchmark's contamination rate exceeds this");
   sub->add_flag("--strict", flags->strict, "Stop at the first bad benchmark record");
+  sub->add_flag("--skip-checksums", flags->skip_checksums,
+                "Check only shard headers when opening the index (for indexes far larger "
+                "than RAM; run `tidemark index verify` separately)");
   sub->add_flag("--evidence", flags->evidence,
                 "Scan the indexed corpus again for where contaminated items occur");
   sub->add_option("--corpus-root", flags->corpus_roots,
