@@ -36,5 +36,6 @@ echo "== 3. vet third-party fine-tuning data against the quiz (no index needed)"
   -o "$out/vendor-clean" data/demo/vendor_finetune.jsonl
 
 echo
-echo "Reports: $out/report/ (report.json, report.html, summary.md, items.jsonl, items.csv, evidence.jsonl)"
+echo "Reports: $out/report/ (report.json, report.html, summary.md, items.jsonl, items.csv, evidence.jsonl, impact.json)"
+echo "Cleaned vendor data: $out/vendor-clean/ (with tidemark-clean-log.jsonl)"
 echo "HTML report: $out/report/report.html"
