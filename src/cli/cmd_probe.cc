@@ -31,6 +31,7 @@ struct ProbeFlags {
   double level = 0;            // 0: not given
   uint64_t sample = 0;
   uint64_t sample_seed = 1;
+  bool sample_seed_given = false;
   std::string out_dir;
   double fail_above = -1;
   bool strict = false;
@@ -179,7 +180,7 @@ Result<AuditPlan> PlanFromFlags(const ProbeFlags& f) {
   if (f.template_share >= 0) plan.probe.template_share = f.template_share;
   if (f.level > 0) plan.level = f.level;
   if (f.sample > 0) plan.probe.sample_size = f.sample;
-  if (f.sample_seed != 1) plan.probe.sample_seed = f.sample_seed;
+  if (f.sample_seed_given) plan.probe.sample_seed = f.sample_seed;
   if (!f.out_dir.empty()) plan.output_dir = f.out_dir;
   if (f.fail_above >= 0) plan.fail_above = f.fail_above;
   return plan;
@@ -201,13 +202,8 @@ int RunProbe(const ProbeFlags& flags) {
     const Status s = index.CheckTextOptions(wanted);
     if (!s.ok()) return ReportError(s);
   }
-  if (plan.probe.rules.empty()) {
-    // Default rule: any single hit at the index's n (Brown et al. 2020, App. C).
-    Rule any;
-    any.name = "any-hit";
-    any.kind = Rule::Kind::kAnyHit;
-    plan.probe.rules.push_back(any);
-  }
+  // No rule given: ProbeBenchmark applies its default (any single hit) and records
+  // it in BenchmarkResult::rules, which the reports then use.
 
   std::vector<BenchmarkResult> results;
   for (const BenchmarkSpec& spec : plan.benchmarks) {
@@ -230,7 +226,7 @@ int RunProbe(const ProbeFlags& flags) {
   ctx.index_dir = plan.index_dir;
   ctx.index_identity = index.identity();
   ctx.text_options = index.text_options().ToString();
-  ctx.rules = plan.probe.rules;
+  ctx.rules = results.empty() ? plan.probe.rules : results[0].rules;
   ctx.probe = plan.probe;
   ctx.level = plan.level;
   ctx.created = NowIso8601();
@@ -364,8 +360,13 @@ void RegisterProbe(CLI::App& app) {
   sub->add_option("--level", flags->level, "Confidence level of intervals (default 0.95)");
   sub->add_option("--sample", flags->sample,
                   "Audit a seeded random sample of this many items per benchmark");
-  sub->add_option("--sample-seed", flags->sample_seed, "Seed of the sample")
-      ->capture_default_str();
+  sub->add_option_function<uint64_t>(
+         "--sample-seed",
+         [flags](const uint64_t& v) {
+           flags->sample_seed = v;
+           flags->sample_seed_given = true;
+         },
+         "Seed of the sample (default 1, or the plan's)");
   sub->add_option("-n,--ngram", flags->ngram,
                   "Expected n; an index built with another n is an error");
   sub->add_option("-o,--out", flags->out_dir,

@@ -171,11 +171,17 @@ std::vector<ManifestFile> IndexManifest::AllFiles() const {
   return out;
 }
 
-uint64_t IndexManifest::records() const {
+namespace {
+// Sum of one per-segment counter over all segments.
+uint64_t SumSegments(const std::vector<ManifestSegment>& segments,
+                     uint64_t ManifestSegment::*field) {
   uint64_t t = 0;
-  for (const auto& s : segments) t += s.records;
+  for (const auto& s : segments) t += s.*field;
   return t;
 }
+}  // namespace
+
+uint64_t IndexManifest::records() const { return SumSegments(segments, &ManifestSegment::records); }
 
 SkipCounts IndexManifest::skipped() const {
   SkipCounts c{};
@@ -186,21 +192,15 @@ SkipCounts IndexManifest::skipped() const {
 }
 
 uint64_t IndexManifest::ngrams_total() const {
-  uint64_t t = 0;
-  for (const auto& s : segments) t += s.ngrams_total;
-  return t;
+  return SumSegments(segments, &ManifestSegment::ngrams_total);
 }
 
 uint64_t IndexManifest::ngrams_distinct() const {
-  uint64_t t = 0;
-  for (const auto& s : segments) t += s.ngrams_distinct;
-  return t;
+  return SumSegments(segments, &ManifestSegment::ngrams_distinct);
 }
 
 uint64_t IndexManifest::shard_bytes() const {
-  uint64_t t = 0;
-  for (const auto& s : segments) t += s.bytes;
-  return t;
+  return SumSegments(segments, &ManifestSegment::bytes);
 }
 
 std::string IndexManifest::Serialize(bool include_build) const {
