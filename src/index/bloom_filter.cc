@@ -15,22 +15,64 @@ double BloomFilterView::FillRatio() const {
   return static_cast<double>(set) / static_cast<double>(words * 64);
 }
 
-BloomFilterBuilder::BloomFilterBuilder(uint64_t num_keys, uint32_t bits_per_key)
+BloomFilterBuilder::BloomFilterBuilder(uint64_t num_keys, uint32_t bits_per_key,
+                                       uint32_t shard_bits)
     : num_blocks_(index_format::BloomBlocksFor(num_keys, bits_per_key)),
       k_(index_format::BloomKFor(bits_per_key)),
+      shard_bits_(shard_bits),
       bytes_(num_blocks_ * index_format::kBloomBlockBytes, 0) {}
 
-void BloomFilterBuilder::Add(uint64_t fp) {
-  const uint64_t h = index_format::Mix64(fp);
-  uint8_t* block =
-      bytes_.data() + BloomFilterView::BlockIndex(h, num_blocks_) * index_format::kBloomBlockBytes;
+namespace {
+
+// ORs the k bit positions of a key with mixed hash h into a 512-bit mask: bit j of a
+// block is bit j mod 64 of little-endian word j / 64. (A GCC vector-extension mask
+// measured 1.5x slower here without AVX-512 code generation.)
+inline void SetPositions(uint64_t h, uint32_t k, uint64_t* mask) {
   uint64_t w = 0;
-  for (uint32_t i = 0; i < k_; ++i) {
-    if (i % 7 == 0) w = index_format::BloomWord(h, i / 7);
+  for (uint32_t i = 0, slot = 7; i < k; ++i, ++slot) {
+    if (slot == 7) {
+      w = index_format::BloomWord(h, i / 7);
+      slot = 0;
+    }
     const uint32_t pos = static_cast<uint32_t>(w & 511);
     w >>= 9;
-    block[pos >> 3] = static_cast<uint8_t>(block[pos >> 3] | (1u << (pos & 7)));
+    mask[pos >> 6] |= uint64_t{1} << (pos & 63);
   }
+}
+
+inline void OrBlock(uint8_t* block, const uint64_t* mask) {
+  for (int j = 0; j < 8; ++j) {
+    index_format::StoreLE64(block + 8 * j, index_format::LoadLE64(block + 8 * j) | mask[j]);
+  }
+}
+
+}  // namespace
+
+void BloomFilterBuilder::Add(uint64_t fp) {
+  uint64_t mask[8] = {};
+  SetPositions(index_format::Mix64(fp), k_, mask);
+  OrBlock(bytes_.data() + BloomFilterView::BlockIndex(fp, shard_bits_, num_blocks_) *
+                              index_format::kBloomBlockBytes,
+          mask);
+}
+
+void BloomFilterBuilder::AddAll(std::span<const uint64_t> keys) {
+  // Ascending keys visit each block in one stretch: the bits of a stretch are
+  // collected in registers and the block is written once, instead of a load and store
+  // per key that would each wait for the previous key's store to the same line.
+  const uint32_t k = k_;
+  uint64_t mask[8] = {};
+  uint64_t cur = ~uint64_t{0};
+  for (const uint64_t fp : keys) {
+    const uint64_t b = BloomFilterView::BlockIndex(fp, shard_bits_, num_blocks_);
+    if (b != cur) {
+      if (cur != ~uint64_t{0}) OrBlock(bytes_.data() + cur * index_format::kBloomBlockBytes, mask);
+      for (uint64_t& m : mask) m = 0;
+      cur = b;
+    }
+    SetPositions(index_format::Mix64(fp), k, mask);
+  }
+  if (cur != ~uint64_t{0}) OrBlock(bytes_.data() + cur * index_format::kBloomBlockBytes, mask);
 }
 
 double BlockedBloomExpectedFpr(double bits_per_key, uint32_t k) {

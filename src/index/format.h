@@ -13,7 +13,7 @@
 namespace tidemark::index_format {
 
 /// docs/index_format.md "Version changes".
-inline constexpr uint32_t kFormatVersion = 1;
+inline constexpr uint32_t kFormatVersion = 2;
 
 /// Shard file magic, PNG-style (RFC 2083 section 12.11): high bit, "TMS", CR LF, ^Z, LF.
 inline constexpr unsigned char kShardMagic[8] = {0x89, 'T', 'M', 'S', 0x0D, 0x0A, 0x1A, 0x0A};

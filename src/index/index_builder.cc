@@ -456,13 +456,16 @@ Status WriteSegment(SegmentJob& job, const IndexBuildOptions& o, const Feed& fee
   uint64_t spills = 0, spilled_bytes = 0;
   {
     SegmentBuilder builder(params, threads, buffers, budget - std::min(budget / 4, uint64_t{48} << 20),
-                           run_dir, env, &progress);
+                           run_dir, env, &progress, o.direct_writes);
     tbb::task_arena arena(threads);
     arena.execute([&] { st = feed(&builder, threads, &progress, &seg, stats); });
+    stats->seconds_reading = SecondsSince(t0);
     if (st.ok() && CancelRequested()) st = Status::Cancelled("index build interrupted");
     if (st.ok()) {
       progress.Report("merging", true);
+      const auto t1 = Clock::now();
       st = builder.Finish(staging, threads, &seg);
+      stats->seconds_writing = SecondsSince(t1);
     }
     spills = builder.spills();
     spilled_bytes = builder.spilled_bytes();
@@ -578,7 +581,7 @@ Status BuildOrAdd(const std::string& dir, const std::vector<std::string>& inputs
 // staging; fills seg->shards[s].
 Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_shard,
                        const ShardParams& base, const std::string& staging, int threads,
-                       Env* env, ProgressReporter* progress, ManifestSegment* seg) {
+                       bool direct, Env* env, ProgressReporter* progress, ManifestSegment* seg) {
   const uint32_t num_shards = static_cast<uint32_t>(by_shard.size());
   seg->shards.assign(num_shards, ManifestShard{});
   FirstError errors;
@@ -597,7 +600,7 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
         return Status::Ok();
       });
       ShardFileInfo info;
-      if (st.ok()) st = writer.Finish(JoinPath(staging, fmt::ShardFileName(s)), env, &info);
+      if (st.ok()) st = writer.Finish(JoinPath(staging, fmt::ShardFileName(s)), env, &info, direct);
       if (!st.ok()) return errors.Set(st);
       seg->shards[s] = ManifestShard{s, info.keys, info.bytes, info.header_xxh3};
       progress->SetDone(done.fetch_add(1) + 1);
@@ -787,7 +790,7 @@ Status MergeSegments(const std::string& dir, const IndexMergeOptions& o, IndexMe
   base.params_hash = m.params_hash();
   ManifestSegment seg;
   seg.id = seg_id;
-  Status st = MergeShardFiles(by_shard, base, staging, threads, env, &progress, &seg);
+  Status st = MergeShardFiles(by_shard, base, staging, threads, o.direct_writes, env, &progress, &seg);
   if (st.ok()) st = env->Rename(staging, final_dir);
   if (!st.ok()) {
     (void)env->RemoveTree(staging);
@@ -882,7 +885,7 @@ Status MergeIndexes(const std::string& out_dir, const std::vector<std::string>& 
   progress.set_total(num_shards);
   ManifestSegment seg;
   seg.id = 1;
-  Status st = MergeShardFiles(by_shard, base, staging, threads, env, &progress, &seg);
+  Status st = MergeShardFiles(by_shard, base, staging, threads, o.direct_writes, env, &progress, &seg);
   if (st.ok()) st = env->Rename(staging, final_dir);
   if (!st.ok()) {
     (void)env->RemoveTree(staging);

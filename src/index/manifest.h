@@ -62,7 +62,7 @@ struct ManifestSegment {
 
 class IndexManifest {
  public:
-  static constexpr int kFormatVersion = 1;
+  static constexpr int kFormatVersion = 2;
 
   int format_version = kFormatVersion;
   TextOptions text;

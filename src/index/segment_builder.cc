@@ -1,11 +1,13 @@
 #include "index/segment_builder.h"
 
+#include <tbb/enumerable_thread_specific.h>
 #include <tbb/parallel_for.h>
 #include <tbb/task_arena.h>
 
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
+#include <span>
 
 #include "index/format.h"
 #include "index/radix_sort.h"
@@ -20,6 +22,21 @@ constexpr size_t kRunReadBuffer = 64 << 10;
 // Peak bytes of a shard writer per key: key 8 + counts 2 + Bloom ~1.25 + packed
 // remainders ~5 (written after the key array is freed) + directory.
 constexpr uint64_t kWriterBytesPerKey = 16;
+// In-memory finish, per key of the shard being written: sorted keys 8 + sort scratch
+// 8 + counts 2 + Bloom ~1.25 + packed remainders ~5 + directory.
+constexpr uint64_t kInMemoryBytesPerKey = 26;
+
+// [begin, end) of each shard in a sorted extras list.
+std::vector<size_t> ExtraCuts(const std::vector<ExtraCount>& extras, uint32_t shard_bits) {
+  const uint32_t num_shards = 1u << shard_bits;
+  std::vector<size_t> cuts(num_shards + 1, extras.size());
+  size_t i = 0;
+  for (uint32_t s = 0; s < num_shards; ++s) {
+    cuts[s] = i;
+    while (i < extras.size() && fmt::ShardOf(extras[i].fp, shard_bits) == s) ++i;
+  }
+  return cuts;
+}
 }  // namespace
 
 void ProgressReporter::Report(std::string_view phase, bool force) {
@@ -41,7 +58,7 @@ void ProgressReporter::Report(std::string_view phase, bool force) {
 
 SegmentBuilder::SegmentBuilder(const ShardParams& params, int workers, uint64_t buffer_bytes,
                                uint64_t merge_budget, std::string run_dir, Env* env,
-                               ProgressReporter* progress)
+                               ProgressReporter* progress, bool direct_writes)
     : params_(params),
       num_shards_(1u << params.shard_bits),
       capacity_slots_(std::max<size_t>(kMinCapacitySlots,
@@ -50,6 +67,7 @@ SegmentBuilder::SegmentBuilder(const ShardParams& params, int workers, uint64_t 
       run_dir_(std::move(run_dir)),
       env_(env),
       progress_(progress),
+      direct_writes_(direct_writes),
       workers_(static_cast<size_t>(std::max(1, workers))) {
   // Reserve address space once: pages are committed only when written, and the
   // buffer never reallocates (which would double its footprint for a moment).
@@ -72,7 +90,7 @@ Status SegmentBuilder::AddDocument(int worker, std::vector<uint64_t>* fps) {
   w.ngrams += v.size();
   DocSet& d = w.doc;
   size_t cap = 64;
-  while (cap < 2 * v.size()) cap *= 2;
+  while (cap < 4 * v.size()) cap *= 2;  // load <= 1/4: few probe-loop mispredictions
   if (d.keys.size() < cap) {
     d.keys.assign(cap, 0);
     d.stamp.assign(cap, 0);
@@ -108,8 +126,13 @@ Status SegmentBuilder::AddDocument(int worker, std::vector<uint64_t>* fps) {
 Status SegmentBuilder::Spill(Worker* w) {
   if (w->main.empty()) return Status::Ok();
   if (progress_ != nullptr) progress_->Report("spilling", true);
-  RadixSort64(w->main.data(), w->main.size());
+  const uint32_t bits = params_.shard_bits;
+  std::vector<size_t> cuts(num_shards_ + 1);
+  PartitionByTopBits(w->main.data(), w->main.size(), bits, cuts.data());
   std::sort(w->extras.begin(), w->extras.end());
+  const std::vector<size_t> ecuts = ExtraCuts(w->extras, bits);
+  size_t largest = 0;
+  for (uint32_t s = 0; s < num_shards_; ++s) largest = std::max(largest, cuts[s + 1] - cuts[s]);
   std::string path;
   {
     std::lock_guard<std::mutex> lock(runs_mu_);
@@ -122,12 +145,18 @@ Status SegmentBuilder::Spill(Worker* w) {
     path = JoinPath(run_dir_, name);
     run_paths_.push_back(path);
   }
-  RunWriter writer(path, params_.shard_bits, env_);
+  RunWriter writer(path, bits, env_);
   TM_RETURN_IF_ERROR(writer.Open());
-  BufferSource src(w->main, w->extras);
-  MergeRecord rec;
-  while (src.Next(&rec)) {
-    TM_RETURN_IF_ERROR(writer.Add(fmt::ShardOf(rec.fp, params_.shard_bits), rec));
+  std::vector<uint64_t> sorted(largest), scratch(largest);
+  for (uint32_t s = 0; s < num_shards_; ++s) {
+    const size_t n = cuts[s + 1] - cuts[s];
+    if (n == 0) continue;
+    const std::span<const uint64_t> in(w->main.data() + cuts[s], n);
+    SortShard(std::span<const std::span<const uint64_t>>(&in, 1), bits, sorted.data(), scratch.data());
+    BufferSource src(std::span<const uint64_t>(sorted.data(), n),
+                     std::span<const ExtraCount>(w->extras.data() + ecuts[s], ecuts[s + 1] - ecuts[s]));
+    MergeRecord rec;
+    while (src.Next(&rec)) TM_RETURN_IF_ERROR(writer.Add(s, rec));
   }
   TM_RETURN_IF_ERROR(writer.Finish().WithContext("spilling a sorted run"));
   spills_.fetch_add(1);
@@ -137,13 +166,24 @@ Status SegmentBuilder::Spill(Worker* w) {
   return Status::Ok();
 }
 
+void SegmentBuilder::ReportShardDone(std::atomic<uint32_t>* done, uint64_t total_bytes) {
+  const uint32_t d = done->fetch_add(1) + 1;
+  if (progress_ != nullptr && total_bytes > 0) {
+    progress_->SetDone(total_bytes * d / num_shards_);
+    progress_->Report("merging");
+  }
+}
+
 Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, ManifestSegment* seg) {
-  const bool spilled = !run_paths_.empty();
   tbb::task_arena arena(threads > 0 ? threads : tbb::task_arena::automatic);
   const int conc_max = arena.max_concurrency();
-  std::vector<Status> worker_status(workers_.size());
-  if (spilled) {
+  seg->shards.assign(num_shards_, ManifestShard{});
+  Status st;
+  if (run_paths_.empty()) {
+    arena.execute([&] { st = FinishInMemory(staging_dir, conc_max, seg); });
+  } else {
     // Everything goes through runs; the buffers are freed before the merge.
+    std::vector<Status> worker_status(workers_.size());
     arena.execute([&] {
       tbb::parallel_for(size_t{0}, workers_.size(), [&](size_t i) {
         worker_status[i] = Spill(&workers_[i]);
@@ -154,111 +194,10 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
       std::vector<uint64_t>().swap(w.main);
       std::vector<ExtraCount>().swap(w.extras);
     }
-  } else {
-    arena.execute([&] {
-      tbb::parallel_for(size_t{0}, workers_.size(), [&](size_t i) {
-        RadixSort64(workers_[i].main.data(), workers_[i].main.size());
-        std::sort(workers_[i].extras.begin(), workers_[i].extras.end());
-      });
-    });
+    if (CancelRequested()) return Status::Cancelled("index build interrupted");
+    st = FinishFromRuns(staging_dir, conc_max, seg);
   }
-  if (CancelRequested()) return Status::Cancelled("index build interrupted");
-
-  std::vector<std::unique_ptr<RunFile>> runs;
-  for (const std::string& p : run_paths_) {
-    TM_ASSIGN_OR_RETURN(auto rf, RunFile::Open(p, params_.shard_bits));
-    runs.push_back(std::move(rf));
-  }
-  // Per worker, the [begin, end) of each shard in main and extras.
-  struct Cuts {
-    std::vector<size_t> main, extras;
-  };
-  std::vector<Cuts> cuts(workers_.size());
-  for (size_t wi = 0; wi < workers_.size(); ++wi) {
-    const Worker& w = workers_[wi];
-    cuts[wi].main.resize(num_shards_ + 1);
-    cuts[wi].extras.resize(num_shards_ + 1);
-    for (uint32_t s = 0; s <= num_shards_; ++s) {
-      if (s == num_shards_) {
-        cuts[wi].main[s] = w.main.size();
-        cuts[wi].extras[s] = w.extras.size();
-        continue;
-      }
-      const uint64_t lo = params_.shard_bits == 0 ? 0 : static_cast<uint64_t>(s) << (64 - params_.shard_bits);
-      cuts[wi].main[s] = static_cast<size_t>(std::lower_bound(w.main.begin(), w.main.end(), lo) - w.main.begin());
-      cuts[wi].extras[s] = static_cast<size_t>(
-          std::lower_bound(w.extras.begin(), w.extras.end(), ExtraCount{lo, 0}) - w.extras.begin());
-    }
-  }
-  // Concurrency bounded by memory: the largest shard's writer times concurrency
-  // (plus run read buffers) must fit in merge_budget_.
-  uint64_t max_shard_records = 1;
-  for (uint32_t s = 0; s < num_shards_; ++s) {
-    uint64_t r = 0;
-    for (size_t wi = 0; wi < workers_.size(); ++wi) r += cuts[wi].main[s + 1] - cuts[wi].main[s];
-    for (const auto& rf : runs) r += rf->RecordsIn(s);
-    max_shard_records = std::max(max_shard_records, r);
-  }
-  const uint64_t per_shard = max_shard_records * kWriterBytesPerKey + runs.size() * kRunReadBuffer;
-  uint64_t in_memory = 0;
-  for (const Worker& w : workers_) in_memory += w.main.capacity() * 8 + w.extras.capacity() * 16;
-  const uint64_t avail = merge_budget_ > in_memory ? merge_budget_ - in_memory : 0;
-  const int conc = static_cast<int>(std::clamp<uint64_t>(
-      avail / std::max<uint64_t>(per_shard, 1), 1, static_cast<uint64_t>(conc_max)));
-
-  seg->shards.assign(num_shards_, ManifestShard{});
-  std::vector<Status> shard_status(num_shards_);
-  std::vector<uint64_t> shard_total(num_shards_, 0);
-  std::atomic<bool> failed{false};
-  std::atomic<uint32_t> shards_done{0};
-  const uint64_t total_bytes_for_progress = progress_ != nullptr ? progress_->done() : 0;
-  tbb::task_arena merge_arena(conc);
-  merge_arena.execute([&] {
-    tbb::parallel_for(
-        uint32_t{0}, num_shards_,
-        [&](uint32_t s) {
-          if (failed.load() || CancelRequested()) return;
-          std::vector<std::unique_ptr<SortedSource>> sources;
-          for (size_t wi = 0; wi < workers_.size(); ++wi) {
-            const Worker& w = workers_[wi];
-            const size_t mb = cuts[wi].main[s], me = cuts[wi].main[s + 1];
-            if (mb == me) continue;
-            const size_t eb = cuts[wi].extras[s], ee = cuts[wi].extras[s + 1];
-            sources.push_back(std::make_unique<BufferSource>(
-                std::span<const uint64_t>(w.main.data() + mb, me - mb),
-                std::span<const ExtraCount>(w.extras.data() + eb, ee - eb)));
-          }
-          for (const auto& rf : runs) {
-            if (rf->RecordsIn(s) > 0) sources.push_back(rf->ShardRange(s, kRunReadBuffer));
-          }
-          ShardParams p = params_;
-          p.shard_id = s;
-          ShardWriter writer(p);
-          uint64_t total = 0;
-          Status st = MergeSources(sources, [&](const MergeRecord& r) {
-            writer.Add(r.fp, r.count, r.docs);
-            total += r.count;
-            return Status::Ok();
-          });
-          sources.clear();
-          ShardFileInfo info;
-          if (st.ok()) st = writer.Finish(JoinPath(staging_dir, fmt::ShardFileName(s)), env_, &info);
-          if (!st.ok()) {
-            shard_status[s] = st;
-            failed = true;
-            return;
-          }
-          seg->shards[s] = ManifestShard{s, info.keys, info.bytes, info.header_xxh3};
-          shard_total[s] = total;
-          const uint32_t done = shards_done.fetch_add(1) + 1;
-          if (progress_ != nullptr && total_bytes_for_progress > 0) {
-            progress_->SetDone(total_bytes_for_progress * done / num_shards_);
-            progress_->Report("merging");
-          }
-        },
-        tbb::simple_partitioner());
-  });
-  for (const Status& s : shard_status) TM_RETURN_IF_ERROR(s);
+  TM_RETURN_IF_ERROR(st);
   if (CancelRequested()) return Status::Cancelled("index build interrupted");
   seg->ngrams_distinct = 0;
   seg->bytes = 0;
@@ -267,12 +206,174 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     seg->bytes += sh.bytes;
   }
   seg->ngrams_total = ngrams_total();
-  runs.clear();
   if (run_dir_made_) {
     (void)env_->RemoveTree(run_dir_);
     run_dir_made_ = false;
   }
   return env_->SyncDir(staging_dir);
+}
+
+Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_max,
+                                      ManifestSegment* seg) {
+  const uint32_t bits = params_.shard_bits;
+  const size_t nw = workers_.size();
+  // Each worker's buffer grouped by shard, in place; extras sorted.
+  std::vector<std::vector<size_t>> cuts(nw, std::vector<size_t>(num_shards_ + 1));
+  std::vector<std::vector<size_t>> ecuts(nw);
+  tbb::parallel_for(size_t{0}, nw, [&](size_t i) {
+    Worker& w = workers_[i];
+    PartitionByTopBits(w.main.data(), w.main.size(), bits, cuts[i].data());
+    std::sort(w.extras.begin(), w.extras.end());
+    ecuts[i] = ExtraCuts(w.extras, bits);
+  });
+  if (CancelRequested()) return Status::Cancelled("index build interrupted");
+  size_t largest = 1;
+  for (uint32_t s = 0; s < num_shards_; ++s) {
+    size_t n = 0;
+    for (size_t i = 0; i < nw; ++i) n += cuts[i][s + 1] - cuts[i][s];
+    largest = std::max(largest, n);
+  }
+  // Concurrency bounded by memory: the buffers stay resident while shards are
+  // written (their filled part: the rest of the reserved capacity was never touched),
+  // and each concurrent shard needs its sort and writer memory.
+  uint64_t in_memory = 0;
+  for (const Worker& w : workers_) in_memory += w.main.size() * 8 + w.extras.capacity() * 16;
+  const uint64_t avail = merge_budget_ > in_memory ? merge_budget_ - in_memory : 0;
+  const int conc = static_cast<int>(std::clamp<uint64_t>(
+      avail / std::max<uint64_t>(largest * kInMemoryBytesPerKey, 1), 1,
+      static_cast<uint64_t>(conc_max)));
+
+  struct Scratch {
+    std::vector<uint64_t> sorted, scratch;
+    std::vector<ExtraCount> extras;
+  };
+  tbb::enumerable_thread_specific<Scratch> scratch;
+  std::vector<Status> shard_status(num_shards_);
+  std::atomic<bool> failed{false};
+  std::atomic<uint32_t> shards_done{0};
+  const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
+  tbb::task_arena merge_arena(conc);
+  merge_arena.execute([&] {
+    tbb::parallel_for(
+        uint32_t{0}, num_shards_,
+        [&](uint32_t s) {
+          if (failed.load() || CancelRequested()) return;
+          Scratch& sc = scratch.local();
+          std::vector<std::span<const uint64_t>> inputs;
+          size_t n = 0;
+          sc.extras.clear();
+          for (size_t i = 0; i < nw; ++i) {
+            const Worker& w = workers_[i];
+            const size_t b = cuts[i][s], e = cuts[i][s + 1];
+            if (e > b) inputs.emplace_back(w.main.data() + b, e - b);
+            n += e - b;
+            sc.extras.insert(sc.extras.end(), w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s]),
+                             w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s + 1]));
+          }
+          if (nw > 1) std::sort(sc.extras.begin(), sc.extras.end());
+          if (sc.sorted.size() < n) {
+            // Sized once for the largest shard, so the pages are faulted in once.
+            sc.sorted.resize(largest);
+            sc.scratch.resize(largest);
+          }
+          uint64_t* keys = sc.sorted.data();
+          SortShard(inputs, bits, keys, sc.scratch.data());
+          // Collapse in place: a key's repeats are its documents; extras add
+          // occurrences.
+          ShardParams p = params_;
+          p.shard_id = s;
+          ShardWriter writer(p);
+          writer.UseKeys(keys, n);
+          size_t u = 0, e = 0;
+          const std::vector<ExtraCount>& ex = sc.extras;
+          for (size_t i = 0; i < n;) {
+            const uint64_t fp = keys[i];
+            size_t j = i + 1;
+            while (j < n && keys[j] == fp) ++j;
+            uint64_t count = j - i;
+            while (e < ex.size() && ex[e].fp <= fp) {
+              if (ex[e].fp == fp) count += ex[e].extra;
+              ++e;
+            }
+            keys[u++] = fp;
+            writer.AddCounts(count, j - i);
+            i = j;
+          }
+          ShardFileInfo info;
+          Status st = writer.Finish(JoinPath(staging_dir, fmt::ShardFileName(s)), env_, &info,
+                                    direct_writes_);
+          if (!st.ok()) {
+            shard_status[s] = st;
+            failed = true;
+            return;
+          }
+          seg->shards[s] = ManifestShard{s, info.keys, info.bytes, info.header_xxh3};
+          ReportShardDone(&shards_done, progress_total);
+        },
+        tbb::simple_partitioner());
+  });
+  for (const Status& st : shard_status) TM_RETURN_IF_ERROR(st);
+  return Status::Ok();
+}
+
+Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_max,
+                                      ManifestSegment* seg) {
+  std::vector<std::unique_ptr<RunFile>> runs;
+  for (const std::string& p : run_paths_) {
+    TM_ASSIGN_OR_RETURN(auto rf, RunFile::Open(p, params_.shard_bits));
+    runs.push_back(std::move(rf));
+  }
+  // Concurrency bounded by memory: the largest shard's writer times concurrency
+  // (plus run read buffers) must fit in merge_budget_.
+  uint64_t max_shard_records = 1;
+  for (uint32_t s = 0; s < num_shards_; ++s) {
+    uint64_t r = 0;
+    for (const auto& rf : runs) r += rf->RecordsIn(s);
+    max_shard_records = std::max(max_shard_records, r);
+  }
+  const uint64_t per_shard = max_shard_records * kWriterBytesPerKey + runs.size() * kRunReadBuffer;
+  const int conc = static_cast<int>(std::clamp<uint64_t>(
+      merge_budget_ / std::max<uint64_t>(per_shard, 1), 1, static_cast<uint64_t>(conc_max)));
+
+  std::vector<Status> shard_status(num_shards_);
+  std::atomic<bool> failed{false};
+  std::atomic<uint32_t> shards_done{0};
+  const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
+  tbb::task_arena merge_arena(conc);
+  merge_arena.execute([&] {
+    tbb::parallel_for(
+        uint32_t{0}, num_shards_,
+        [&](uint32_t s) {
+          if (failed.load() || CancelRequested()) return;
+          std::vector<std::unique_ptr<SortedSource>> sources;
+          for (const auto& rf : runs) {
+            if (rf->RecordsIn(s) > 0) sources.push_back(rf->ShardRange(s, kRunReadBuffer));
+          }
+          ShardParams p = params_;
+          p.shard_id = s;
+          ShardWriter writer(p);
+          Status st = MergeSources(sources, [&](const MergeRecord& r) {
+            writer.Add(r.fp, r.count, r.docs);
+            return Status::Ok();
+          });
+          sources.clear();
+          ShardFileInfo info;
+          if (st.ok()) {
+            st = writer.Finish(JoinPath(staging_dir, fmt::ShardFileName(s)), env_, &info,
+                               direct_writes_);
+          }
+          if (!st.ok()) {
+            shard_status[s] = st;
+            failed = true;
+            return;
+          }
+          seg->shards[s] = ManifestShard{s, info.keys, info.bytes, info.header_xxh3};
+          ReportShardDone(&shards_done, progress_total);
+        },
+        tbb::simple_partitioner());
+  });
+  for (const Status& st : shard_status) TM_RETURN_IF_ERROR(st);
+  return Status::Ok();
 }
 
 }  // namespace tidemark

@@ -55,7 +55,7 @@ class SegmentBuilder {
   /// on first spill). `merge_budget` bounds the memory of concurrent shard writers.
   SegmentBuilder(const ShardParams& params, int workers, uint64_t buffer_bytes,
                  uint64_t merge_budget, std::string run_dir, Env* env,
-                 ProgressReporter* progress);
+                 ProgressReporter* progress, bool direct_writes = true);
   ~SegmentBuilder();
 
   /// Adds one document (its fingerprints in any order). REQUIRES: 0 <= worker < workers.
@@ -86,6 +86,12 @@ class SegmentBuilder {
     DocSet doc;
   };
   Status Spill(Worker* w);
+  // The buffers (nothing spilled): per shard, gather every worker's keys, sort,
+  // count and write.
+  Status FinishInMemory(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
+  // Runs (everything spilled): per shard, k-way merge the runs and write.
+  Status FinishFromRuns(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
+  void ReportShardDone(std::atomic<uint32_t>* done, uint64_t total_bytes);
   bool Full(const Worker& w, size_t more) const {
     return w.main.size() + 2 * w.extras.size() + more > capacity_slots_;
   }
@@ -97,6 +103,7 @@ class SegmentBuilder {
   std::string run_dir_;
   Env* env_;
   ProgressReporter* progress_;
+  bool direct_writes_;
   std::vector<Worker> workers_;
   std::mutex runs_mu_;
   std::vector<std::string> run_paths_;

@@ -157,7 +157,7 @@ Result<std::unique_ptr<ShardReader>> ShardReader::Open(const std::string& path,
                          std::to_string(pos) + (pos > r->file_bytes_ ? " (truncated)" : ""));
   }
 
-  r->bloom_ = BloomFilterView(r->base_ + r->sections_[fmt::kSecBloom].offset, blocks, k);
+  r->bloom_ = BloomFilterView(r->base_ + r->sections_[fmt::kSecBloom].offset, blocks, k, r->s_);
   r->dir_ = r->base_ + r->sections_[fmt::kSecDirectory].offset;
   r->rem_ = r->base_ + r->sections_[fmt::kSecRemainders].offset;
   r->counts_ = r->base_ + r->sections_[fmt::kSecCounts].offset;

@@ -20,42 +20,33 @@ uint64_t SatAdd(uint64_t a, uint64_t b) {
   return s < a ? ~uint64_t{0} : s;
 }
 
-// Packs remainders [begin, end) of `keys` into `out` (appends whole 64-bit words of
-// the bit stream). Callers pack in chunks whose bit length is a multiple of 64.
-class RemainderPacker {
- public:
-  explicit RemainderPacker(uint32_t w) : w_(w), mask_(w == 64 ? ~0ull : (1ull << w) - 1) {}
-  void Put(uint64_t r, std::string* out) {
-    r &= mask_;
-    acc_ |= r << fill_;
-    const uint32_t used = 64 - fill_;
-    if (w_ >= used) {
-      Emit(acc_, out);
-      acc_ = used == 64 ? 0 : (r >> used);
-      fill_ = w_ - used;
+// Bit-packs the low `w` bits of every key into little-endian 64-bit words (key i at
+// bit i*w of the stream), followed by 8 zero bytes.
+std::string PackRemainders(std::span<const uint64_t> keys, uint32_t w) {
+  const uint64_t mask = w == 64 ? ~0ull : (1ull << w) - 1;
+  const uint64_t words = (keys.size() * w + 63) / 64;
+  std::string out(words * 8 + 8, '\0');
+  char* p = out.data();
+  uint64_t acc = 0;
+  uint32_t fill = 0;
+  for (const uint64_t k : keys) {
+    const uint64_t r = k & mask;
+    acc |= r << fill;
+    const uint32_t used = 64 - fill;
+    if (w >= used) {
+      fmt::StoreLE64(p, acc);
+      p += 8;
+      acc = used == 64 ? 0 : (r >> used);
+      fill = w - used;
     } else {
-      fill_ += w_;
+      fill += w;
     }
   }
-  void Flush(std::string* out) {
-    if (fill_ > 0) Emit(acc_, out);
-    acc_ = 0;
-    fill_ = 0;
-  }
+  if (fill > 0) fmt::StoreLE64(p, acc);
+  return out;
+}
 
- private:
-  static void Emit(uint64_t v, std::string* out) {
-    char b[8];
-    fmt::StoreLE64(b, v);
-    out->append(b, 8);
-  }
-  uint32_t w_;
-  uint64_t mask_;
-  uint64_t acc_ = 0;
-  uint32_t fill_ = 0;
-};
-
-void EncodeCount(uint64_t v, uint32_t index, std::vector<uint8_t>* bytes,
+inline void EncodeCount(uint64_t v, uint32_t index, std::vector<uint8_t>* bytes,
                  std::vector<std::pair<uint32_t, uint32_t>>* exceptions) {
   if (v > fmt::kMaxCount) v = fmt::kMaxCount;
   if (v < fmt::kCountEscape) {
@@ -79,7 +70,42 @@ std::string ExceptionBytes(const std::vector<std::pair<uint32_t, uint32_t>>& ex)
 
 ShardWriter::ShardWriter(const ShardParams& params) : params_(params) {}
 
+void ShardWriter::UseKeys(const uint64_t* keys, size_t capacity) {
+  assert(keys_.empty() && counts_.empty());
+  external_keys_ = keys;
+  external_capacity_ = capacity;
+  external_ = true;
+  counts_.resize(capacity);
+  docs_.resize(capacity);
+}
+
+void ShardWriter::AddCounts(uint64_t count, uint64_t docs) {
+  assert(external_ && added_ < external_capacity_);
+  assert(count >= 1 && docs >= 1 && docs <= count);
+  const uint32_t index = static_cast<uint32_t>(added_++);
+  if (count < fmt::kCountEscape) {  // the common case: both fit in a byte
+    counts_[index] = static_cast<uint8_t>(count);
+    docs_[index] = static_cast<uint8_t>(docs);
+    total_count_ += count;  // no wrap: at most 2^32-1 keys of at most 2^32-1 each
+    total_docs_ += docs;
+    return;
+  }
+  if (count > fmt::kMaxCount) count = fmt::kMaxCount;
+  if (docs > fmt::kMaxCount) docs = fmt::kMaxCount;
+  counts_[index] = fmt::kCountEscape;
+  count_exceptions_.emplace_back(index, static_cast<uint32_t>(count));
+  if (docs < fmt::kCountEscape) {
+    docs_[index] = static_cast<uint8_t>(docs);
+  } else {
+    docs_[index] = fmt::kCountEscape;
+    doc_exceptions_.emplace_back(index, static_cast<uint32_t>(docs));
+  }
+  total_count_ = SatAdd(total_count_, count);
+  total_docs_ = SatAdd(total_docs_, docs);
+}
+
 void ShardWriter::Add(uint64_t fp, uint64_t count, uint64_t docs) {
+  assert(!external_);
   assert(keys_.empty() || fp > keys_.back());
   assert(fmt::ShardOf(fp, params_.shard_bits) == params_.shard_id);
   assert(count >= 1 && docs >= 1 && docs <= count);
@@ -96,8 +122,14 @@ uint64_t ShardWriter::MemoryBytes() const {
          (count_exceptions_.capacity() + doc_exceptions_.capacity()) * 8;
 }
 
-Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* info) {
-  const uint64_t n = keys_.size();
+Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct) {
+  if (external_) {
+    counts_.resize(added_);
+    docs_.resize(added_);
+  }
+  const std::span<const uint64_t> keys = this->keys();
+  const uint64_t n = keys.size();
+  assert(counts_.size() == n);
   if (n > fmt::kMaxKeysPerShard) {
     return Status::InvalidArgument(path + ": " + std::to_string(n) +
                                    " keys in one shard exceed the format's 2^32-1; use more "
@@ -108,31 +140,24 @@ Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* inf
   const uint32_t w = 64 - s - b;
   assert(w >= 1 && w <= fmt::kMaxRemainderBits);
   const uint64_t num_buckets = 1ull << b;
-  const uint64_t rem_mask = (1ull << w) - 1;
 
   // Bloom filter.
-  BloomFilterBuilder bloom(n, params_.bloom_bits_per_key);
-  for (const uint64_t k : keys_) bloom.Add(k);
+  // Ascending keys fill the blocks front to back.
+  BloomFilterBuilder bloom(n, params_.bloom_bits_per_key, s);
+  bloom.AddAll(keys);
 
   // Directory: dir[j] = first key of bucket j.
   std::string dir((num_buckets + 1) * 4, '\0');
   {
     uint64_t i = 0;
     for (uint64_t j = 0; j <= num_buckets; ++j) {
-      while (i < n && ((keys_[i] >> w) & (num_buckets - 1)) < j) ++i;
+      while (i < n && ((keys[i] >> w) & (num_buckets - 1)) < j) ++i;
       fmt::StoreLE32(dir.data() + j * 4, static_cast<uint32_t>(j == num_buckets ? n : i));
     }
   }
 
   // Remainders, bit-packed; + 8 zero bytes.
-  std::string rem;
-  rem.reserve(((n * w + 63) / 64) * 8 + 8);
-  {
-    RemainderPacker packer(w);
-    for (const uint64_t k : keys_) packer.Put(k & rem_mask, &rem);
-    packer.Flush(&rem);
-    rem.append(8, '\0');
-  }
+  const std::string rem = PackRemainders(keys, w);
   // The key array is no longer needed; free it before the write buffers grow.
   std::vector<uint64_t>().swap(keys_);
 
@@ -185,7 +210,7 @@ Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* inf
   const uint64_t header_sum = XXH3_64bits(header, fmt::off::kHeaderChecksum);
   fmt::StoreLE64(header + fmt::off::kHeaderChecksum, header_sum);
 
-  TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path));
+  TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path, FileOptions{direct}));
   TM_RETURN_IF_ERROR(file->Append(std::string_view(header, sizeof(header))));
   static const char kZeros[64] = {};
   uint64_t pos = fmt::kHeaderBytes;

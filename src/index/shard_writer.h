@@ -8,6 +8,7 @@
 #define TIDEMARK_SRC_INDEX_SHARD_WRITER_H_
 
 #include <cstdint>
+#include <span>
 #include <string>
 #include <utility>
 #include <vector>
@@ -44,16 +45,32 @@ class ShardWriter {
   /// REQUIRES: fp strictly greater than the previous key, ShardOf(fp) == shard_id,
   /// 1 <= docs <= count. Counts above 2^32-1 saturate.
   void Add(uint64_t fp, uint64_t count, uint64_t docs);
-  uint64_t size() const { return keys_.size(); }
+  uint64_t size() const { return keys().size(); }
+
+  /// The bulk form of Add: the keys live in the caller's array `keys` (which must
+  /// outlive Finish); AddCounts is called once per key, in order, and the key count
+  /// is the number of AddCounts calls. keys[i] must hold the i-th key (ascending,
+  /// unique) by the time Finish runs. REQUIRES: no Add before or after.
+  void UseKeys(const uint64_t* keys, size_t capacity);
+  void AddCounts(uint64_t count, uint64_t docs);
   /// Approximate bytes held (for the memory budget).
   uint64_t MemoryBytes() const;
 
-  /// Writes the shard to `path` (created or truncated) and fsyncs it.
-  Status Finish(const std::string& path, Env* env, ShardFileInfo* info);
+  /// Writes the shard to `path` (created or truncated) and fsyncs it. `direct`
+  /// writes around the page cache (FileOptions::direct).
+  Status Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct = false);
 
  private:
+  std::span<const uint64_t> keys() const {
+    return external_ ? std::span<const uint64_t>(external_keys_, added_)
+                     : std::span<const uint64_t>(keys_);
+  }
   ShardParams params_;
   std::vector<uint64_t> keys_;
+  const uint64_t* external_keys_ = nullptr;
+  size_t external_capacity_ = 0;
+  size_t added_ = 0;  // AddCounts calls (counts_/docs_ are pre-sized in bulk mode)
+  bool external_ = false;
   std::vector<uint8_t> counts_;
   std::vector<uint8_t> docs_;
   std::vector<std::pair<uint32_t, uint32_t>> count_exceptions_;

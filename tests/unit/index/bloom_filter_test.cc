@@ -2,6 +2,7 @@
 
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <string>
@@ -17,7 +18,7 @@ using testing::SplitMix64;
 // Measured false-positive rate of a filter with `n` keys, probed with `probes` keys
 // that were not inserted.
 double MeasureFpr(uint64_t n, uint32_t bits_per_key, uint64_t probes, uint64_t seed) {
-  BloomFilterBuilder b(n, bits_per_key);
+  BloomFilterBuilder b(n, bits_per_key, 0);
   SplitMix64 rng(seed);
   std::vector<uint64_t> keys(n);
   for (auto& k : keys) {
@@ -91,9 +92,22 @@ TEST_CASE("the FPR formula agrees with scipy's Poisson pmf", "[index][bloom]") {
   CHECK(BlockedBloomExpectedFpr(16, 10) == Approx(v[2]).epsilon(1e-9));
 }
 
+TEST_CASE("AddAll sets the same bits as Add, in any key order", "[index][bloom]") {
+  SplitMix64 rng(17);
+  std::vector<uint64_t> keys(30000);
+  for (auto& k : keys) k = (rng.Next() >> 8) | (0x33ull << 56);
+  BloomFilterBuilder one(keys.size(), 10, 8), sorted(keys.size(), 10, 8), shuffled(keys.size(), 10, 8);
+  for (const uint64_t k : keys) one.Add(k);
+  shuffled.AddAll(keys);
+  std::sort(keys.begin(), keys.end());
+  sorted.AddAll(keys);
+  CHECK(sorted.bytes() == one.bytes());
+  CHECK(shuffled.bytes() == one.bytes());
+}
+
 TEST_CASE("Bloom bit layout follows docs/index_format.md", "[index][bloom]") {
   // One key in a one-block filter sets exactly the k documented bit positions.
-  BloomFilterBuilder b(1, 10);
+  BloomFilterBuilder b(1, 10, 8);
   REQUIRE(b.num_blocks() == 1);
   const uint64_t fp = 0x0123456789abcdefull;
   b.Add(fp);
@@ -108,6 +122,20 @@ TEST_CASE("Bloom bit layout follows docs/index_format.md", "[index][bloom]") {
     want[word * 8 + bit / 8] |= static_cast<uint8_t>(1u << (bit % 8));
   }
   CHECK(b.bytes() == want);
+  // The block: multiply-shift (Lemire 2019) of the 32 fingerprint bits below the
+  // shard bits; ascending keys of one shard give non-decreasing blocks.
+  BloomFilterBuilder big(100000, 10, 8);
+  const uint64_t nb = big.num_blocks();
+  CHECK(BloomFilterView::BlockIndex(0x12ffffffff000000ull, 8, nb) == nb - 1);
+  CHECK(BloomFilterView::BlockIndex(0x1200000000ffffffull, 8, nb) == 0);
+  CHECK(BloomFilterView::BlockIndex(0x1280000000000000ull, 8, nb) == nb / 2);
+  SplitMix64 rng(3);
+  std::vector<uint64_t> keys(5000);
+  for (auto& k : keys) k = (rng.Next() >> 8) | (0x12ull << 56);
+  std::sort(keys.begin(), keys.end());
+  for (size_t i = 1; i < keys.size(); ++i) {
+    REQUIRE(BloomFilterView::BlockIndex(keys[i - 1], 8, nb) <= BloomFilterView::BlockIndex(keys[i], 8, nb));
+  }
   // SplitMix64 finalizer test value: Mix64(0) == 0 and Mix64(1) is the splitmix64
   // output for state 1 - 0x9e3779b97f4a7c15 (from memory: the first output of
   // splitmix64 seeded with 0 is 0xe220a8397b1dcdaf).

@@ -110,10 +110,14 @@ TEST_CASE("index bytes do not depend on threads, memory budget or document order
   std::mt19937_64 g(3);
   std::shuffle(shuffled.begin(), shuffled.end(), g);
   REQUIRE(BuildIndexFromDocuments(base + "/shuf", shuffled, SmallOptions(2), false, &st).ok());
+  IndexBuildOptions cached = SmallOptions(2);
+  cached.direct_writes = false;  // through the page cache instead of O_DIRECT
+  REQUIRE(BuildIndexFromDocuments(base + "/cached", docs, cached, false, &st).ok());
   const std::string a = IndexContentBytes(base + "/t1");
   CHECK(a == IndexContentBytes(base + "/t2"));
   CHECK(a == IndexContentBytes(base + "/tiny"));
   CHECK(a == IndexContentBytes(base + "/shuf"));
+  CHECK(a == IndexContentBytes(base + "/cached"));
   auto idx = Index::Open(base + "/tiny");
   REQUIRE(idx.ok());
   CheckAgainstReference(**idx, ReferenceCounts(docs));
@@ -235,7 +239,7 @@ TEST_CASE("manifest records parameters and round-trips", "[index][manifest]") {
   bad.replace(bad.find("\"shard_bits\""), 12, "\"shard_bitz\"");
   CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kCorruption);
   bad = json;
-  bad.replace(bad.find("\"format_version\": 1"), 19, "\"format_version\": 2");
+  bad.replace(bad.find("\"format_version\": 2"), 19, "\"format_version\": 1");
   CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kUnsupported);
 }
 
@@ -245,8 +249,9 @@ class FaultyEnv : public Env {
  public:
   uint64_t budget = ~0ull;
   bool fail_rename_manifest = false;
-  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path) override {
-    TM_ASSIGN_OR_RETURN(auto f, Env::NewWritableFile(path));
+  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
+                                                        FileOptions options) override {
+    TM_ASSIGN_OR_RETURN(auto f, Env::NewWritableFile(path, options));
     return std::unique_ptr<WritableFile>(new File(std::move(f), this));
   }
   Status Rename(const std::string& from, const std::string& to) override {

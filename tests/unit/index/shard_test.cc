@@ -118,7 +118,7 @@ TEST_CASE("shard header fields follow docs/index_format.md", "[index][shard]") {
   const std::string f = testing::ReadFile(path);
   REQUIRE(f.size() > 256);
   CHECK(f.substr(0, 8) == std::string("\x89TMS\r\n\x1a\n", 8));
-  CHECK(fmt::LoadLE32(f.data() + 8) == 1);
+  CHECK(fmt::LoadLE32(f.data() + 8) == 2);
   CHECK(fmt::LoadLE32(f.data() + 12) == 256);
   CHECK(fmt::LoadLE32(f.data() + 16) == 8);
   CHECK(fmt::LoadLE32(f.data() + 20) == 17);
