@@ -105,10 +105,11 @@ inline uint64_t Mix64(uint64_t z) {
 }
 
 /// Word j of the Bloom bit-position stream of a key with mixed hash h: 7 positions of
-/// 9 bits each (bits 0..62), word j = Mix64(h + (j + 1) * 0x9e3779b97f4a7c15) (the
-/// SplitMix64 sequence seeded with h).
+/// 9 bits each (bits 0..62); word 0 is h itself, word j >= 1 is
+/// Mix64(h + j * 0x9e3779b97f4a7c15) (the SplitMix64 sequence seeded with h). The
+/// default k = 6 thus costs one Mix64 per key.
 inline uint64_t BloomWord(uint64_t h, uint32_t j) {
-  return Mix64(h + (static_cast<uint64_t>(j) + 1) * 0x9e3779b97f4a7c15ull);
+  return j == 0 ? h : Mix64(h + static_cast<uint64_t>(j) * 0x9e3779b97f4a7c15ull);
 }
 
 inline uint32_t ShardOf(uint64_t fp, uint32_t shard_bits) {

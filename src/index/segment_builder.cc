@@ -6,6 +6,9 @@
 
 #include <algorithm>
 #include <chrono>
+#include <condition_variable>
+#include <deque>
+#include <thread>
 #include <cstdio>
 #include <span>
 
@@ -23,8 +26,75 @@ constexpr size_t kRunReadBuffer = 64 << 10;
 // remainders ~5 (written after the key array is freed) + directory.
 constexpr uint64_t kWriterBytesPerKey = 16;
 // In-memory finish, per key of the shard being written: sorted keys 8 + sort scratch
-// 8 + counts 2 + Bloom ~1.25 + packed remainders ~5 + directory.
-constexpr uint64_t kInMemoryBytesPerKey = 26;
+// 8 + counts 2 + Bloom ~1.25 + packed remainders ~5 + directory + the file image ~9.
+constexpr uint64_t kInMemoryBytesPerKey = 34;
+// Shard images queued for (or in) the background write, and their bytes per key.
+constexpr uint64_t kPendingImages = 3;
+constexpr uint64_t kImageBytesPerKey = 9;
+
+// Writes shard images on its own thread, so that sorting the next shard overlaps the
+// disk write (and fsync) of the last one. At most `max_pending` images wait; Submit
+// blocks beyond that, bounding the memory held. The first error stops further writes
+// and is returned by Finish.
+class BackgroundShardWriter {
+ public:
+  BackgroundShardWriter(Env* env, bool direct, size_t max_pending)
+      : env_(env), direct_(direct), max_pending_(max_pending), thread_([this] { Loop(); }) {}
+  ~BackgroundShardWriter() { (void)Finish(); }
+
+  void Submit(ShardImage image, std::string path) {
+    std::unique_lock<std::mutex> lock(mu_);
+    space_.wait(lock, [&] { return queue_.size() < max_pending_ || !status_.ok(); });
+    if (!status_.ok()) return;
+    queue_.push_back({std::move(image), std::move(path)});
+    ready_.notify_one();
+  }
+  bool failed() {
+    std::lock_guard<std::mutex> lock(mu_);
+    return !status_.ok();
+  }
+  Status Finish() {
+    {
+      std::lock_guard<std::mutex> lock(mu_);
+      done_ = true;
+      ready_.notify_one();
+    }
+    if (thread_.joinable()) thread_.join();
+    return status_;
+  }
+
+ private:
+  struct Job {
+    ShardImage image;
+    std::string path;
+  };
+  void Loop() {
+    while (true) {
+      Job job;
+      {
+        std::unique_lock<std::mutex> lock(mu_);
+        ready_.wait(lock, [&] { return !queue_.empty() || done_; });
+        if (queue_.empty()) return;
+        job = std::move(queue_.front());
+        queue_.pop_front();
+      }
+      Status st = status_.ok() ? WriteShardImage(job.image, job.path, env_, direct_) : Status::Ok();
+      std::lock_guard<std::mutex> lock(mu_);
+      if (!st.ok() && status_.ok()) status_ = st;
+      space_.notify_all();
+    }
+  }
+
+  Env* env_;
+  bool direct_;
+  size_t max_pending_;
+  std::mutex mu_;
+  std::condition_variable ready_, space_;
+  std::deque<Job> queue_;
+  bool done_ = false;
+  Status status_;
+  std::thread thread_;  // last: starts after the members it uses
+};
 
 // [begin, end) of each shard in a sorted extras list.
 std::vector<size_t> ExtraCuts(const std::vector<ExtraCount>& extras, uint32_t shard_bits) {
@@ -69,9 +139,16 @@ SegmentBuilder::SegmentBuilder(const ShardParams& params, int workers, uint64_t 
       progress_(progress),
       direct_writes_(direct_writes),
       workers_(static_cast<size_t>(std::max(1, workers))) {
-  // Reserve address space once: pages are committed only when written, and the
-  // buffer never reallocates (which would double its footprint for a moment).
-  for (Worker& w : workers_) w.main.reserve(capacity_slots_);
+  // Chunks small enough that the open (partly filled) chunk of every shard wastes at
+  // most 1/16 of the buffer, large enough that a shard's keys are few long spans.
+  chunk_slots_ = std::clamp<size_t>(capacity_slots_ / (size_t{num_shards_} * 16), 1, 16384);
+  // Reserve address space once: pages are committed only when written (the arena is
+  // not value-initialized), and the buffer never reallocates.
+  for (Worker& w : workers_) {
+    w.arena = std::make_unique_for_overwrite<uint64_t[]>(capacity_slots_);
+    w.shard_chunks.resize(num_shards_);
+    w.fill.assign(num_shards_, static_cast<uint32_t>(chunk_slots_));
+  }
 }
 
 SegmentBuilder::~SegmentBuilder() {
@@ -91,48 +168,74 @@ Status SegmentBuilder::AddDocument(int worker, std::vector<uint64_t>* fps) {
   DocSet& d = w.doc;
   size_t cap = 64;
   while (cap < 4 * v.size()) cap *= 2;  // load <= 1/4: few probe-loop mispredictions
-  if (d.keys.size() < cap) {
-    d.keys.assign(cap, 0);
-    d.stamp.assign(cap, 0);
-    d.count.assign(cap, 0);
-  }
+  if (d.slots.size() < cap) d.slots.assign(cap, DocSlot{0, 0, 0});
   if (++d.gen == 0) {  // stamps wrapped: forget them all
-    std::fill(d.stamp.begin(), d.stamp.end(), 0);
+    for (DocSlot& slot : d.slots) slot.stamp = 0;
     d.gen = 1;
   }
   const size_t mask = cap - 1;  // a power of two <= the table size
+  const uint32_t gen = d.gen;
+  DocSlot* const slots = d.slots.data();
   d.used.clear();
   for (const uint64_t fp : v) {
     size_t i = static_cast<size_t>(fp ^ (fp >> 29)) & mask;  // fingerprints are uniform
-    while (d.stamp[i] == d.gen && d.keys[i] != fp) i = (i + 1) & mask;
-    if (d.stamp[i] == d.gen) {
-      ++d.count[i];
+    while (slots[i].stamp == gen && slots[i].key != fp) i = (i + 1) & mask;
+    if (slots[i].stamp == gen) {
+      ++slots[i].count;
     } else {
-      d.stamp[i] = d.gen;
-      d.keys[i] = fp;
-      d.count[i] = 1;
+      slots[i] = DocSlot{fp, gen, 1};
       d.used.push_back(static_cast<uint32_t>(i));
     }
   }
+  const uint32_t bits = params_.shard_bits;
+  const uint32_t chunk = static_cast<uint32_t>(chunk_slots_);
   for (const uint32_t i : d.used) {
-    const bool repeated = d.count[i] > 1;
-    if (Full(w, repeated ? 3 : 1)) TM_RETURN_IF_ERROR(Spill(&w));
-    w.main.push_back(d.keys[i]);
-    if (repeated) w.extras.push_back({d.keys[i], static_cast<uint64_t>(d.count[i] - 1)});
+    const uint64_t fp = slots[i].key;
+    const uint32_t s = fmt::ShardOf(fp, bits);
+    const bool repeated = slots[i].count > 1;
+    // A key and its extra go into the same run: make room for both first.
+    const bool new_chunk = w.fill[s] == chunk;
+    if (!Fits(w, new_chunk ? 1 : 0, repeated ? 1 : 0)) {
+      TM_RETURN_IF_ERROR(Spill(&w));
+    }
+    if (w.fill[s] == chunk) {
+      w.shard_chunks[s].push_back(static_cast<uint32_t>(w.chunks_used++));
+      w.fill[s] = 0;
+    }
+    w.arena[size_t{w.shard_chunks[s].back()} * chunk + w.fill[s]++] = fp;
+    ++w.keys;
+    if (repeated) w.extras.push_back({fp, static_cast<uint64_t>(slots[i].count - 1)});
   }
   return Status::Ok();
 }
 
+void SegmentBuilder::ShardSpans(const Worker& w, uint32_t s,
+                                std::vector<std::span<const uint64_t>>* out) const {
+  const std::vector<uint32_t>& chunks = w.shard_chunks[s];
+  for (size_t c = 0; c < chunks.size(); ++c) {
+    const size_t n = c + 1 == chunks.size() ? w.fill[s] : chunk_slots_;
+    if (n > 0) out->emplace_back(w.arena.get() + size_t{chunks[c]} * chunk_slots_, n);
+  }
+}
+
+void SegmentBuilder::ResetBuffer(Worker* w) {
+  for (auto& c : w->shard_chunks) c.clear();
+  std::fill(w->fill.begin(), w->fill.end(), static_cast<uint32_t>(chunk_slots_));
+  w->chunks_used = 0;
+  w->keys = 0;
+  w->extras.clear();
+}
+
 Status SegmentBuilder::Spill(Worker* w) {
-  if (w->main.empty()) return Status::Ok();
+  if (w->keys == 0) return Status::Ok();
   if (progress_ != nullptr) progress_->Report("spilling", true);
   const uint32_t bits = params_.shard_bits;
-  std::vector<size_t> cuts(num_shards_ + 1);
-  PartitionByTopBits(w->main.data(), w->main.size(), bits, cuts.data());
   std::sort(w->extras.begin(), w->extras.end());
   const std::vector<size_t> ecuts = ExtraCuts(w->extras, bits);
   size_t largest = 0;
-  for (uint32_t s = 0; s < num_shards_; ++s) largest = std::max(largest, cuts[s + 1] - cuts[s]);
+  for (uint32_t s = 0; s < num_shards_; ++s) {
+    largest = std::max(largest, w->shard_chunks[s].size() * chunk_slots_);
+  }
   std::string path;
   {
     std::lock_guard<std::mutex> lock(runs_mu_);
@@ -148,11 +251,14 @@ Status SegmentBuilder::Spill(Worker* w) {
   RunWriter writer(path, bits, env_);
   TM_RETURN_IF_ERROR(writer.Open());
   std::vector<uint64_t> sorted(largest), scratch(largest);
+  std::vector<std::span<const uint64_t>> inputs;
   for (uint32_t s = 0; s < num_shards_; ++s) {
-    const size_t n = cuts[s + 1] - cuts[s];
+    inputs.clear();
+    ShardSpans(*w, s, &inputs);
+    size_t n = 0;
+    for (const auto& in : inputs) n += in.size();
     if (n == 0) continue;
-    const std::span<const uint64_t> in(w->main.data() + cuts[s], n);
-    SortShard(std::span<const std::span<const uint64_t>>(&in, 1), bits, sorted.data(), scratch.data());
+    SortShard(inputs, bits, sorted.data(), scratch.data());
     BufferSource src(std::span<const uint64_t>(sorted.data(), n),
                      std::span<const ExtraCount>(w->extras.data() + ecuts[s], ecuts[s + 1] - ecuts[s]));
     MergeRecord rec;
@@ -161,8 +267,7 @@ Status SegmentBuilder::Spill(Worker* w) {
   TM_RETURN_IF_ERROR(writer.Finish().WithContext("spilling a sorted run"));
   spills_.fetch_add(1);
   spilled_bytes_.fetch_add(writer.bytes());
-  w->main.clear();
-  w->extras.clear();
+  ResetBuffer(w);
   return Status::Ok();
 }
 
@@ -191,7 +296,7 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     });
     for (const Status& s : worker_status) TM_RETURN_IF_ERROR(s);
     for (Worker& w : workers_) {
-      std::vector<uint64_t>().swap(w.main);
+      w.arena.reset();
       std::vector<ExtraCount>().swap(w.extras);
     }
     if (CancelRequested()) return Status::Cancelled("index build interrupted");
@@ -217,12 +322,10 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
                                       ManifestSegment* seg) {
   const uint32_t bits = params_.shard_bits;
   const size_t nw = workers_.size();
-  // Each worker's buffer grouped by shard, in place; extras sorted.
-  std::vector<std::vector<size_t>> cuts(nw, std::vector<size_t>(num_shards_ + 1));
+  // Extras sorted; a worker's keys are already grouped by shard (in chunks).
   std::vector<std::vector<size_t>> ecuts(nw);
   tbb::parallel_for(size_t{0}, nw, [&](size_t i) {
     Worker& w = workers_[i];
-    PartitionByTopBits(w.main.data(), w.main.size(), bits, cuts[i].data());
     std::sort(w.extras.begin(), w.extras.end());
     ecuts[i] = ExtraCuts(w.extras, bits);
   });
@@ -230,14 +333,15 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
   size_t largest = 1;
   for (uint32_t s = 0; s < num_shards_; ++s) {
     size_t n = 0;
-    for (size_t i = 0; i < nw; ++i) n += cuts[i][s + 1] - cuts[i][s];
+    for (size_t i = 0; i < nw; ++i) n += workers_[i].shard_chunks[s].size() * chunk_slots_;
     largest = std::max(largest, n);
   }
   // Concurrency bounded by memory: the buffers stay resident while shards are
   // written (their filled part: the rest of the reserved capacity was never touched),
   // and each concurrent shard needs its sort and writer memory.
   uint64_t in_memory = 0;
-  for (const Worker& w : workers_) in_memory += w.main.size() * 8 + w.extras.capacity() * 16;
+  for (const Worker& w : workers_) in_memory += w.keys * 8 + w.extras.capacity() * 16;
+  in_memory += kPendingImages * kImageBytesPerKey * largest;
   const uint64_t avail = merge_budget_ > in_memory ? merge_budget_ - in_memory : 0;
   const int conc = static_cast<int>(std::clamp<uint64_t>(
       avail / std::max<uint64_t>(largest * kInMemoryBytesPerKey, 1), 1,
@@ -252,6 +356,7 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
   std::atomic<bool> failed{false};
   std::atomic<uint32_t> shards_done{0};
   const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
+  BackgroundShardWriter io(env_, direct_writes_, kPendingImages - 1);
   tbb::task_arena merge_arena(conc);
   merge_arena.execute([&] {
     tbb::parallel_for(
@@ -260,16 +365,15 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
           if (failed.load() || CancelRequested()) return;
           Scratch& sc = scratch.local();
           std::vector<std::span<const uint64_t>> inputs;
-          size_t n = 0;
           sc.extras.clear();
           for (size_t i = 0; i < nw; ++i) {
             const Worker& w = workers_[i];
-            const size_t b = cuts[i][s], e = cuts[i][s + 1];
-            if (e > b) inputs.emplace_back(w.main.data() + b, e - b);
-            n += e - b;
+            ShardSpans(w, s, &inputs);
             sc.extras.insert(sc.extras.end(), w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s]),
                              w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s + 1]));
           }
+          size_t n = 0;
+          for (const auto& in : inputs) n += in.size();
           if (nw > 1) std::sort(sc.extras.begin(), sc.extras.end());
           if (sc.sorted.size() < n) {
             // Sized once for the largest shard, so the pages are faulted in once.
@@ -299,19 +403,21 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
             writer.AddCounts(count, j - i);
             i = j;
           }
-          ShardFileInfo info;
-          Status st = writer.Finish(JoinPath(staging_dir, fmt::ShardFileName(s)), env_, &info,
-                                    direct_writes_);
-          if (!st.ok()) {
+          const std::string path = JoinPath(staging_dir, fmt::ShardFileName(s));
+          ShardImage image;
+          Status st = writer.BuildImage(path, &image);
+          if (!st.ok() || io.failed()) {
             shard_status[s] = st;
             failed = true;
             return;
           }
-          seg->shards[s] = ManifestShard{s, info.keys, info.bytes, info.header_xxh3};
+          seg->shards[s] = ManifestShard{s, image.info.keys, image.info.bytes, image.info.header_xxh3};
+          io.Submit(std::move(image), path);
           ReportShardDone(&shards_done, progress_total);
         },
         tbb::simple_partitioner());
   });
+  TM_RETURN_IF_ERROR(io.Finish());
   for (const Status& st : shard_status) TM_RETURN_IF_ERROR(st);
   return Status::Ok();
 }

@@ -1,11 +1,14 @@
 // SegmentBuilder: documents' fingerprints -> the shard files of one new segment.
 //
-// Each worker owns a fixed-capacity buffer (its share of the memory budget). A
-// document's fingerprints are sorted and de-duplicated; each distinct one is appended
+// Each worker owns a fixed-capacity buffer (its share of the memory budget), carved
+// into chunks that each hold keys of one shard, so keys are grouped by shard as they
+// arrive. A document's fingerprints are de-duplicated; each distinct one is appended
 // once (one document), repeats inside the document go to a small "extra occurrences"
-// list. A full buffer is radix-sorted and spilled as a run file. Finish k-way merges,
-// shard by shard in parallel, the buffers still in memory and all runs, and writes one
-// shard file per shard. The result depends only on the multiset of documents.
+// list. A full buffer is sorted shard by shard and spilled as a run file. Finish, if
+// nothing was spilled, sorts each shard's keys from all workers at once, collapses
+// them into counts and writes the shard (the disk write overlapping the next shard's
+// sort); otherwise it k-way merges the runs shard by shard. Shards are finished in
+// parallel. The result depends only on the multiset of documents.
 //
 // Thread safety: AddDocument(w, ...) may run concurrently for distinct w; everything
 // else is single-owner.
@@ -16,6 +19,7 @@
 #include <cstdint>
 #include <memory>
 #include <mutex>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -72,33 +76,50 @@ class SegmentBuilder {
  private:
   // Per-document distinct counting in O(n): an open-addressing set reused across
   // documents (a slot is live when its stamp equals the current document's).
+  struct DocSlot {
+    uint64_t key;
+    uint32_t stamp;
+    uint32_t count;
+  };
   struct DocSet {
-    std::vector<uint64_t> keys;
-    std::vector<uint32_t> stamp;
-    std::vector<uint32_t> count;
+    std::vector<DocSlot> slots;
     std::vector<uint32_t> used;  // live slots in first-seen order
     uint32_t gen = 0;
   };
+  // A worker's buffer: an arena of capacity_slots_ keys (reserved address space,
+  // committed as it fills) carved into chunks of chunk_slots_ keys, each chunk
+  // holding keys of one shard. Keys are thus grouped by shard as they arrive, and a
+  // shard's keys are the spans of its chunks.
   struct Worker {
-    std::vector<uint64_t> main;
+    std::unique_ptr<uint64_t[]> arena;
+    size_t chunks_used = 0;
+    std::vector<std::vector<uint32_t>> shard_chunks;  // per shard, its chunks in order
+    std::vector<uint32_t> fill;  // per shard, keys in its last chunk (chunk_slots_: none open)
     std::vector<ExtraCount> extras;
+    uint64_t keys = 0;  // keys in the arena
     uint64_t ngrams = 0;
     DocSet doc;
   };
+  // The spans of shard s's keys in w.
+  void ShardSpans(const Worker& w, uint32_t s, std::vector<std::span<const uint64_t>>* out) const;
   Status Spill(Worker* w);
+  void ResetBuffer(Worker* w);
+  // Slots in use if `more_chunks` chunks and `more_extras` extras were added.
+  bool Fits(const Worker& w, size_t more_chunks, size_t more_extras) const {
+    return (w.chunks_used + more_chunks) * chunk_slots_ + 2 * (w.extras.size() + more_extras) <=
+           capacity_slots_;
+  }
   // The buffers (nothing spilled): per shard, gather every worker's keys, sort,
   // count and write.
   Status FinishInMemory(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
   // Runs (everything spilled): per shard, k-way merge the runs and write.
   Status FinishFromRuns(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
   void ReportShardDone(std::atomic<uint32_t>* done, uint64_t total_bytes);
-  bool Full(const Worker& w, size_t more) const {
-    return w.main.size() + 2 * w.extras.size() + more > capacity_slots_;
-  }
 
   ShardParams params_;
   uint32_t num_shards_;
   size_t capacity_slots_;
+  size_t chunk_slots_;
   uint64_t merge_budget_;
   std::string run_dir_;
   Env* env_;

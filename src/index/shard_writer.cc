@@ -122,7 +122,7 @@ uint64_t ShardWriter::MemoryBytes() const {
          (count_exceptions_.capacity() + doc_exceptions_.capacity()) * 8;
 }
 
-Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct) {
+Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   if (external_) {
     counts_.resize(added_);
     docs_.resize(added_);
@@ -210,29 +210,35 @@ Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* inf
   const uint64_t header_sum = XXH3_64bits(header, fmt::off::kHeaderChecksum);
   fmt::StoreLE64(header + fmt::off::kHeaderChecksum, header_sum);
 
-  TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path, FileOptions{direct}));
-  TM_RETURN_IF_ERROR(file->Append(std::string_view(header, sizeof(header))));
-  static const char kZeros[64] = {};
-  uint64_t pos = fmt::kHeaderBytes;
+  // The whole file in one buffer: header, sections, zero padding.
+  out->bytes.assign(file_bytes, '\0');
+  std::memcpy(out->bytes.data(), header, sizeof(header));
   for (int i = 0; i < fmt::kNumSections; ++i) {
-    if (offsets[i] > pos) {
-      TM_RETURN_IF_ERROR(file->Append(std::string_view(kZeros, offsets[i] - pos)));
-    }
-    if (pieces[i].size > 0) {
-      TM_RETURN_IF_ERROR(file->Append(std::string_view(pieces[i].data, pieces[i].size)));
-    }
-    pos = offsets[i] + pieces[i].size;
+    if (pieces[i].size > 0) std::memcpy(out->bytes.data() + offsets[i], pieces[i].data, pieces[i].size);
   }
-  TM_RETURN_IF_ERROR(file->Sync());
-  TM_RETURN_IF_ERROR(file->Close());
-
-  info->shard_id = params_.shard_id;
-  info->keys = n;
-  info->bytes = file_bytes;
-  info->header_xxh3 = header_sum;
-  info->total_count = total_count_;
-  info->total_docs = total_docs_;
+  ShardFileInfo& info = out->info;
+  info.shard_id = params_.shard_id;
+  info.keys = n;
+  info.bytes = file_bytes;
+  info.header_xxh3 = header_sum;
+  info.total_count = total_count_;
+  info.total_docs = total_docs_;
   return Status::Ok();
+}
+
+Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct) {
+  ShardImage image;
+  TM_RETURN_IF_ERROR(BuildImage(path, &image));
+  TM_RETURN_IF_ERROR(WriteShardImage(image, path, env, direct));
+  *info = image.info;
+  return Status::Ok();
+}
+
+Status WriteShardImage(const ShardImage& image, const std::string& path, Env* env, bool direct) {
+  TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path, FileOptions{direct}));
+  TM_RETURN_IF_ERROR(file->Append(image.bytes));
+  TM_RETURN_IF_ERROR(file->Sync());
+  return file->Close();
 }
 
 }  // namespace tidemark

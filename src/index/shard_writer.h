@@ -36,6 +36,15 @@ struct ShardFileInfo {
   uint64_t total_docs = 0;
 };
 
+/// A shard file's bytes, ready to be written, and what the manifest records of it.
+struct ShardImage {
+  std::string bytes;
+  ShardFileInfo info;
+};
+
+/// Writes `image` to `path` (created or truncated) and fsyncs it.
+Status WriteShardImage(const ShardImage& image, const std::string& path, Env* env, bool direct);
+
 class ShardWriter {
  public:
   explicit ShardWriter(const ShardParams& params);
@@ -59,6 +68,10 @@ class ShardWriter {
   /// Writes the shard to `path` (created or truncated) and fsyncs it. `direct`
   /// writes around the page cache (FileOptions::direct).
   Status Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct = false);
+  /// The file's bytes without writing them (Finish = BuildImage + WriteShardImage);
+  /// `path` only names the file in errors. In bulk mode the caller's keys may be
+  /// reused once this returns.
+  Status BuildImage(const std::string& path, ShardImage* out);
 
  private:
   std::span<const uint64_t> keys() const {

@@ -114,8 +114,9 @@ TEST_CASE("Bloom bit layout follows docs/index_format.md", "[index][bloom]") {
   const uint64_t h = index_format::Mix64(fp);
   std::vector<uint8_t> want(64, 0);
   for (uint32_t i = 0; i < b.k(); ++i) {
-    // position i: 9-bit slice i % 7 of word i / 7 of the SplitMix64 stream seeded with h
-    const uint64_t w = index_format::Mix64(h + (i / 7 + 1) * 0x9e3779b97f4a7c15ull);
+    // position i: 9-bit slice i % 7 of word i / 7, word 0 being h and word j >= 1
+    // Mix64(h + j * 0x9e3779b97f4a7c15) (the SplitMix64 stream seeded with h)
+    const uint64_t w = i / 7 == 0 ? h : index_format::Mix64(h + (i / 7) * 0x9e3779b97f4a7c15ull);
     const uint32_t pos = static_cast<uint32_t>((w >> (9 * (i % 7))) & 511);
     const uint32_t word = pos / 64, bit = pos % 64;
     // bit j of the block is bit (j mod 64) of little-endian word j / 64
