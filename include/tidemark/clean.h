@@ -106,13 +106,16 @@ struct CleanOptions {
   double template_share = 0.0;
   uint32_t min_template_items = 3;
   int compression_level = 0;  ///< 0: default (zstd 3, gzip 6)
-  size_t block_bytes = 4 << 20;
+  size_t block_bytes = 1 << 20;
   size_t max_logged_matches = 16;  ///< per log line; matches_total gives the count
   /// The removal log; empty: <output_dir>/tidemark-clean-log.jsonl.
   std::string log_path;
   /// Also write, per benchmark, the items no corpus record matched (see
   /// WriteCleanBenchmarkSubset) to <output_dir>/<this>/<name>.clean.<ext>; empty: off.
   std::string benchmark_subset_dir;
+  /// Write the cleaned copies around the page cache (O_DIRECT where the filesystem
+  /// has it, with write-behind); same bytes either way (see FileOptions::direct).
+  bool direct_writes = true;
   ProgressSink* progress = nullptr;
   Env* env = nullptr;  ///< nullptr: Env::Default()
 };

@@ -12,6 +12,7 @@
 #include <cstring>
 #include <filesystem>
 #include <memory>
+#include <thread>
 
 #include "clean/clean_internal.h"
 #include "clean/codec.h"
@@ -242,11 +243,18 @@ void AppendLog(std::string* log, const std::string& file, const Record& rec, con
   o += "],\"matches_total\":" + std::to_string(refs_sorted.size()) + "}\n";
 }
 
+// A changed record: bytes [begin, end) of its block are replaced by `text`.
+struct Edit {
+  size_t begin, end;
+  std::string text;
+};
+
 struct BlockWork {
   LineBlock block;
   uint64_t disk_bytes = 0;
-  bool unchanged = false;  // the output is block.data itself
-  std::string out;
+  // The output is block.data with these (ascending, disjoint) edits applied; the
+  // writer stage appends the untouched stretches straight from block.data.
+  std::vector<Edit> edits;
   std::string log;
   uint64_t log_entries = 0;
   CleanFileStats stats;
@@ -371,6 +379,29 @@ class FileCleaner {
   const CleanOptions& options_;
 };
 
+// Commits one finished output on a helper thread. Destroying it without Wait waits
+// for the commit in flight (and a writer never committed abandons its temp file).
+class BackgroundCommit {
+ public:
+  ~BackgroundCommit() { (void)Wait(); }
+  void Start(std::unique_ptr<CompressedFileWriter> w) {
+    writer_ = std::move(w);
+    thread_ = std::thread([this] { status_ = writer_->Commit(); });
+  }
+  Status Wait() {
+    if (thread_.joinable()) thread_.join();
+    writer_.reset();
+    Status s = status_;
+    status_ = Status::Ok();
+    return s;
+  }
+
+ private:
+  std::unique_ptr<CompressedFileWriter> writer_;
+  std::thread thread_;
+  Status status_;
+};
+
 uint64_t LinesIn(std::string_view s) {
   if (s.empty()) return 0;
   uint64_t n = static_cast<uint64_t>(std::count(s.begin(), s.end(), '\n'));
@@ -449,6 +480,7 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
   for (const std::string& f : corpus_files) total_bytes += FileSize(f);
   uint64_t done_before = 0, records_before = 0;
   FileCleaner cleaner(table, options);
+  BackgroundCommit committer;
   tbb::enumerable_thread_specific<std::unique_ptr<Worker>> workers(
       [&] { return std::make_unique<Worker>(table, options, seen.get()); });
 
@@ -457,7 +489,10 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
     const std::string& path = corpus_files[fi];
     TM_ASSIGN_OR_RETURN(const DetectedFormat det, DetectFormat(path, options.corpus_read));
     TM_RETURN_IF_ERROR(env->CreateDirs(DirName(outputs[fi])));
-    CompressedFileWriter out(outputs[fi], det.compression, options.compression_level, env);
+    auto out_ptr = std::make_unique<CompressedFileWriter>(outputs[fi], det.compression,
+                                                          options.compression_level, env,
+                                                          FileOptions{options.direct_writes});
+    CompressedFileWriter& out = *out_ptr;
     TM_RETURN_IF_ERROR(out.Open());
     CleanFileStats fstats;
     fstats.input = path;
@@ -480,8 +515,9 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
       std::string new_line;
       const RecordOutcome::Action a =
           cleaner.Process(*workers.local(), rec, text, false, path, &work, &new_line);
-      work.out = a == RecordOutcome::kKeep ? text : a == RecordOutcome::kRedact ? new_line : "";
-      TM_RETURN_IF_ERROR(out.Append(work.out));
+      TM_RETURN_IF_ERROR(out.Append(a == RecordOutcome::kKeep     ? std::string_view(text)
+                                    : a == RecordOutcome::kRedact ? std::string_view(new_line)
+                                                                  : std::string_view()));
       TM_RETURN_IF_ERROR(log.Append(work.log));
       summary.log_entries += work.log_entries;
       fstats = work.stats;
@@ -538,12 +574,7 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
                     const std::string& data = work->block.data;
                     size_t cursor = 0;
                     Record rec;
-                    // Changed records: [begin, end) of the block replaced by `text`.
-                    struct Edit {
-                      size_t begin, end;
-                      std::string text;
-                    };
-                    std::vector<Edit> edits;
+                    std::vector<Edit>& edits = work->edits;
                     std::string new_line;
                     while (true) {
                       Result<bool> more = parser.Next(&rec);
@@ -571,17 +602,6 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
                       cursor = next;
                     }
                     work->stats.passed_unchecked += LinesIn(std::string_view(data).substr(cursor));
-                    if (edits.empty()) {
-                      work->unchanged = true;
-                    } else {
-                      size_t at = 0;
-                      for (const Edit& e : edits) {
-                        work->out.append(data, at, e.begin - at);
-                        work->out += e.text;
-                        at = e.end;
-                      }
-                      work->out.append(data, at, std::string::npos);
-                    }
                     work->stats.skips = parser.skips();
                     work->stats.bytes_in = data.size();
                     return work;
@@ -594,8 +614,15 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
                       stop = true;
                       return;
                     }
-                    Status s = out.Append(work->unchanged ? std::string_view(work->block.data)
-                                                          : std::string_view(work->out));
+                    const std::string_view data(work->block.data);
+                    Status s;
+                    size_t at = 0;
+                    for (const Edit& e : work->edits) {
+                      if (s.ok() && e.begin > at) s = out.Append(data.substr(at, e.begin - at));
+                      if (s.ok() && !e.text.empty()) s = out.Append(e.text);
+                      at = e.end;
+                    }
+                    if (s.ok() && at < data.size()) s = out.Append(data.substr(at));
                     if (s.ok()) s = log.Append(work->log);
                     if (!s.ok()) {
                       st = s;
@@ -628,11 +655,15 @@ Result<CleanSummary> CleanCorpus(const BenchmarkTable& table,
       return Status::Unsupported(path + ": cleaning supports JSON Lines and text files only");
     }
     fstats.bytes_out = out.bytes_in();
-    TM_RETURN_IF_ERROR(out.Commit());
+    // Commit (finish the stream, fsync, rename) on another thread while the next
+    // file is cleaned; one commit at a time, every one waited for below.
+    TM_RETURN_IF_ERROR(committer.Wait());
+    committer.Start(std::move(out_ptr));
     done_before += FileSize(path);
     records_before += fstats.records;
     summary.files.push_back(std::move(fstats));
   }
+  TM_RETURN_IF_ERROR(committer.Wait());
   TM_RETURN_IF_ERROR(log.Commit());
 
   // Benchmark items judged against this corpus.

@@ -10,6 +10,7 @@ namespace {
 
 constexpr size_t kInChunk = 1 << 20;   // compress in 1 MiB pieces
 constexpr size_t kOutChunk = 1 << 20;  // write to disk in 1 MiB pieces
+constexpr size_t kDirectPiece = 64 << 10;  // uncompressed pieces this large skip in_
 
 bool EndsWith(std::string_view s, std::string_view suffix) {
   return s.size() >= suffix.size() && s.substr(s.size() - suffix.size()) == suffix;
@@ -34,8 +35,8 @@ struct CompressedFileWriter::Codec {
 };
 
 CompressedFileWriter::CompressedFileWriter(std::string path, Compression compression, int level,
-                                           Env* env)
-    : file_(std::move(path), env), compression_(compression), level_(level) {
+                                           Env* env, FileOptions file_options)
+    : file_(std::move(path), env, file_options), compression_(compression), level_(level) {
   if (level_ == 0) level_ = compression_ == Compression::kGzip ? 6 : 3;
 }
 
@@ -84,8 +85,9 @@ Status CompressedFileWriter::FlushOut() {
 
 Status CompressedFileWriter::Drain(bool finish) {
   if (compression_ == Compression::kNone) {
-    out_.append(in_);
+    if (!in_.empty()) status_ = file_.Append(in_);
     in_.clear();
+    if (!status_.ok()) return status_;
   } else if (compression_ == Compression::kZstd) {
     ZSTD_inBuffer in{in_.data(), in_.size(), 0};
     const ZSTD_EndDirective mode = finish ? ZSTD_e_end : ZSTD_e_continue;
@@ -126,11 +128,14 @@ Status CompressedFileWriter::Drain(bool finish) {
 Status CompressedFileWriter::Append(std::string_view data) {
   if (!status_.ok()) return status_;
   bytes_in_ += data.size();
-  if (compression_ == Compression::kNone && data.size() >= kOutChunk) {
-    // Large uncompressed pieces go straight to the file, without two more copies.
-    out_.append(in_);  // what is pending goes first
-    in_.clear();
-    if (!FlushOut().ok()) return status_;
+  if (compression_ == Compression::kNone && data.size() >= kDirectPiece) {
+    // Uncompressed pieces of some size go straight to the file, without the two
+    // copies through in_ and out_ (the file stages or writes them itself).
+    if (!in_.empty()) {
+      status_ = file_.Append(in_);  // what is pending goes first
+      in_.clear();
+      if (!status_.ok()) return status_;
+    }
     status_ = file_.Append(data);
     return status_;
   }

@@ -33,7 +33,7 @@ class CompressedFileWriter {
   /// `level`: zstd 1..19 or gzip 1..9; 0 picks the default (zstd 3, gzip 6).
   /// REQUIRES: compression is kNone, kZstd or kGzip; env outlives the writer.
   CompressedFileWriter(std::string path, Compression compression, int level = 0,
-                       Env* env = Env::Default());
+                       Env* env = Env::Default(), FileOptions file_options = {});
   ~CompressedFileWriter();  // abandons an uncommitted file
   CompressedFileWriter(const CompressedFileWriter&) = delete;
   CompressedFileWriter& operator=(const CompressedFileWriter&) = delete;

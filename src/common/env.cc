@@ -9,6 +9,9 @@
 #include <cstdlib>
 #include <cstring>
 #include <algorithm>
+#include <condition_variable>
+#include <mutex>
+#include <thread>
 #include <filesystem>
 #include <system_error>
 
@@ -61,33 +64,35 @@ class PosixWritableFile final : public WritableFile {
 };
 
 // O_DIRECT writes: data is staged in an aligned buffer and written in whole
-// multiples of kAlign at aligned offsets; Close writes the zero-padded tail block and
-// truncates the file to its real size. If the kernel refuses an O_DIRECT write
-// (EINVAL: a filesystem without direct I/O), the file switches to ordinary writes.
+// multiples of kAlign at aligned offsets, by a helper thread while the caller fills
+// the other buffer (write-behind); Sync and Close write the zero-padded tail block
+// and truncate the file to its real size. If the kernel refuses an O_DIRECT write
+// (EINVAL: a filesystem without direct I/O, or a short write that broke alignment),
+// the file switches to ordinary writes and the write is retried.
 class DirectWritableFile final : public WritableFile {
  public:
   static constexpr size_t kAlign = 4096;
   static constexpr size_t kBuffer = size_t{4} << 20;
 
   DirectWritableFile(std::string path, int fd) : path_(std::move(path)), fd_(fd) {
-    void* p = nullptr;
-    if (::posix_memalign(&p, kAlign, kBuffer) != 0) p = nullptr;
-    buf_ = static_cast<char*>(p);
-    if (buf_ == nullptr) SwitchToBuffered();
+    for (char*& b : buf_) {
+      void* p = nullptr;
+      b = ::posix_memalign(&p, kAlign, kBuffer) == 0 ? static_cast<char*>(p) : nullptr;
+    }
   }
   ~DirectWritableFile() override {
+    StopHelper();
     if (fd_ >= 0) ::close(fd_);
-    std::free(buf_);
+    for (char* b : buf_) std::free(b);
   }
   Status Append(std::string_view data) override {
-    if (direct_ && size_ % kAlign != 0) SwitchToBuffered();  // appending after Sync
-    if (!direct_) return WriteAll(data.data(), data.size());
+    if (buf_[0] == nullptr || buf_[1] == nullptr) return Status::IOError(path_ + ": out of memory");
     while (!data.empty()) {
       const size_t n = std::min(data.size(), kBuffer - used_);
-      std::memcpy(buf_ + used_, data.data(), n);
+      std::memcpy(buf_[active_] + used_, data.data(), n);
       used_ += n;
       data.remove_prefix(n);
-      if (used_ == kBuffer) TM_RETURN_IF_ERROR(FlushBuffer(kBuffer));
+      if (used_ == kBuffer) TM_RETURN_IF_ERROR(Submit());
     }
     return Status::Ok();
   }
@@ -99,90 +104,118 @@ class DirectWritableFile final : public WritableFile {
   Status Close() override {
     if (fd_ < 0) return Status::Ok();
     Status st = FlushTail();
+    StopHelper();
     const int rc = ::close(fd_);
     fd_ = -1;
     if (!st.ok()) return st;
     if (rc != 0) return PosixError(path_ + ": close", errno);
     return Status::Ok();
   }
-  uint64_t size() const override { return size_ + used_; }
+  uint64_t size() const override { return written_ + used_; }
 
  private:
-  void SwitchToBuffered() {
-    direct_ = false;
-    const int flags = ::fcntl(fd_, F_GETFL);
-    if (flags >= 0) (void)::fcntl(fd_, F_SETFL, flags & ~O_DIRECT);
-  }
-  Status WriteAll(const char* p, size_t left) {
-    while (left > 0) {
-      const ssize_t n = ::pwrite(fd_, p, left, static_cast<off_t>(size_));
+  // pwrite of an aligned buffer at an aligned offset; on EINVAL, once, without O_DIRECT.
+  Status WriteAt(const char* p, size_t len, uint64_t off) {
+    bool retried = false;
+    while (len > 0) {
+      const ssize_t n = ::pwrite(fd_, p, len, static_cast<off_t>(off));
       if (n < 0) {
         if (errno == EINTR) continue;
-        return PosixError(path_ + "@" + std::to_string(size_) + ": write", errno);
+        if (errno == EINVAL && !retried) {
+          retried = true;
+          const int flags = ::fcntl(fd_, F_GETFL);
+          if (flags >= 0 && ::fcntl(fd_, F_SETFL, flags & ~O_DIRECT) == 0) continue;
+          errno = EINVAL;
+        }
+        return PosixError(path_ + "@" + std::to_string(off) + ": write", errno);
       }
       p += n;
-      left -= static_cast<size_t>(n);
-      size_ += static_cast<uint64_t>(n);
+      len -= static_cast<size_t>(n);
+      off += static_cast<uint64_t>(n);
     }
     return Status::Ok();
   }
-  // Writes buf_[0, bytes) (bytes a multiple of kAlign) at size_ (aligned).
-  Status FlushBuffer(size_t bytes) {
-    size_t done = 0;
-    while (done < bytes) {
-      const ssize_t n = ::pwrite(fd_, buf_ + done, bytes - done, static_cast<off_t>(size_ + done));
-      if (n < 0) {
-        if (errno == EINTR) continue;
-        if (errno == EINVAL && size_ + done == 0) {
-          // No direct I/O here: write this and everything after through the cache.
-          SwitchToBuffered();
-          const size_t keep = used_;
-          used_ = 0;
-          return WriteAll(buf_, keep);
-        }
-        return PosixError(path_ + "@" + std::to_string(size_ + done) + ": write", errno);
-      }
-      if (static_cast<size_t>(n) % kAlign != 0 && done + static_cast<size_t>(n) < bytes) {
-        // A short write that breaks alignment: finish through the cache.
-        done += static_cast<size_t>(n);
-        size_ += done;
-        SwitchToBuffered();
-        const size_t rest = used_ - done;
-        used_ = 0;
-        return WriteAll(buf_ + done, rest);
-      }
-      done += static_cast<size_t>(n);
+  // Hands the full active buffer to the helper (after the previous one is written).
+  Status Submit() {
+    TM_RETURN_IF_ERROR(WaitForHelper());
+    if (!helper_.joinable()) helper_ = std::thread([this] { HelperLoop(); });
+    {
+      std::lock_guard<std::mutex> lock(mu_);
+      job_buf_ = buf_[active_];
+      job_len_ = used_;
+      job_off_ = written_;
+      job_pending_ = true;
     }
-    size_ += bytes;
-    std::memmove(buf_, buf_ + bytes, used_ - bytes);
-    used_ -= bytes;
+    cv_.notify_all();
+    written_ += used_;
+    used_ = 0;
+    active_ ^= 1;
     return Status::Ok();
   }
-  // Writes what is staged: whole blocks directly, the partial last block zero-padded,
-  // then truncates to the real size.
+  Status WaitForHelper() {
+    std::unique_lock<std::mutex> lock(mu_);
+    cv_.wait(lock, [&] { return !job_pending_; });
+    return job_status_;
+  }
+  void HelperLoop() {
+    std::unique_lock<std::mutex> lock(mu_);
+    while (true) {
+      cv_.wait(lock, [&] { return job_pending_ || stop_; });
+      if (!job_pending_) return;
+      const char* p = job_buf_;
+      const size_t len = job_len_;
+      const uint64_t off = job_off_;
+      lock.unlock();
+      Status st = WriteAt(p, len, off);
+      lock.lock();
+      if (!st.ok() && job_status_.ok()) job_status_ = st;
+      job_pending_ = false;
+      cv_.notify_all();
+    }
+  }
+  void StopHelper() {
+    if (!helper_.joinable()) return;
+    {
+      std::unique_lock<std::mutex> lock(mu_);
+      cv_.wait(lock, [&] { return !job_pending_; });
+      stop_ = true;
+    }
+    cv_.notify_all();
+    helper_.join();
+  }
+  // Writes what is staged: the whole blocks and the zero-padded partial last block,
+  // then truncates to the real size. Staged bytes stay in the buffer (a later Append
+  // continues after them, rewriting the padded block).
   Status FlushTail() {
-    if (!direct_ || used_ == 0) return Status::Ok();
+    TM_RETURN_IF_ERROR(WaitForHelper());
+    if (used_ == 0) return Status::Ok();
+    const size_t padded = (used_ + kAlign - 1) / kAlign * kAlign;
+    std::memset(buf_[active_] + used_, 0, padded - used_);
+    TM_RETURN_IF_ERROR(WriteAt(buf_[active_], padded, written_));
+    const uint64_t end = written_ + used_;
+    if (::ftruncate(fd_, static_cast<off_t>(end)) != 0) return PosixError(path_ + ": truncate", errno);
+    // Keep the bytes of the last partial block staged; drop the whole blocks.
     const size_t whole = used_ / kAlign * kAlign;
-    if (whole > 0) TM_RETURN_IF_ERROR(FlushBuffer(whole));
-    if (!direct_ || used_ == 0) return Status::Ok();
-    const size_t tail = used_;
-    std::memset(buf_ + tail, 0, kAlign - tail);
-    const uint64_t end = size_ + tail;
-    used_ = kAlign;
-    TM_RETURN_IF_ERROR(FlushBuffer(kAlign));
-    if (::ftruncate(fd_, static_cast<off_t>(end)) != 0) {
-      return PosixError(path_ + ": truncate", errno);
-    }
-    size_ = end;
+    std::memmove(buf_[active_], buf_[active_] + whole, used_ - whole);
+    written_ += whole;
+    used_ -= whole;
     return Status::Ok();
   }
 
   std::string path_;
   int fd_;
-  char* buf_ = nullptr;
-  size_t used_ = 0;
-  uint64_t size_ = 0;  // bytes on disk
-  bool direct_ = true;
+  char* buf_[2] = {nullptr, nullptr};
+  int active_ = 0;
+  size_t used_ = 0;       // bytes staged in buf_[active_]
+  uint64_t written_ = 0;  // file offset of buf_[active_][0] (a multiple of kAlign)
+  std::thread helper_;
+  std::mutex mu_;
+  std::condition_variable cv_;
+  bool job_pending_ = false, stop_ = false;
+  const char* job_buf_ = nullptr;
+  size_t job_len_ = 0;
+  uint64_t job_off_ = 0;
+  Status job_status_;
 };
 
 }  // namespace
@@ -278,15 +311,18 @@ Result<std::string> ReadFileToString(const std::string& path) {
   return out;
 }
 
-AtomicFileWriter::AtomicFileWriter(std::string path, Env* env)
-    : path_(std::move(path)), temp_path_(path_ + ".tmp." + std::to_string(::getpid())), env_(env) {}
+AtomicFileWriter::AtomicFileWriter(std::string path, Env* env, FileOptions options)
+    : path_(std::move(path)),
+      temp_path_(path_ + ".tmp." + std::to_string(::getpid())),
+      env_(env),
+      options_(options) {}
 
 AtomicFileWriter::~AtomicFileWriter() {
   if (!done_) Abandon();
 }
 
 Status AtomicFileWriter::Open() {
-  auto file = env_->NewWritableFile(temp_path_);
+  auto file = env_->NewWritableFile(temp_path_, options_);
   if (!file.ok()) {
     status_ = file.status();
     return status_;
