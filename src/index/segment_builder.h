@@ -74,17 +74,14 @@ class SegmentBuilder {
   uint64_t ngrams_total() const;
 
  private:
-  // Per-document distinct counting in O(n): an open-addressing set reused across
-  // documents (a slot is live when its stamp equals the current document's).
-  struct DocSlot {
-    uint64_t key;
-    uint32_t stamp;
-    uint32_t count;
-  };
+  // Per-document distinct counting in O(n): an open-addressing set of keys (0 marks
+  // an empty slot; the key 0 itself is tracked apart), reused across documents and
+  // cleared through its list of used slots. counts[i] is only read for used slots.
   struct DocSet {
-    std::vector<DocSlot> slots;
-    std::vector<uint32_t> used;  // live slots in first-seen order
-    uint32_t gen = 0;
+    std::vector<uint64_t> keys;
+    std::vector<uint32_t> counts;
+    std::vector<uint32_t> used;  // used slots in first-seen order
+    uint32_t zero_count = 0;     // occurrences of the key 0 in this document
   };
   // A worker's buffer: an arena of capacity_slots_ keys (reserved address space,
   // committed as it fills) carved into chunks of chunk_slots_ keys, each chunk
@@ -93,8 +90,10 @@ class SegmentBuilder {
   struct Worker {
     std::unique_ptr<uint64_t[]> arena;
     size_t chunks_used = 0;
+    size_t populated = 0;  // arena slots prefaulted (PrefaultArena)
     std::vector<std::vector<uint32_t>> shard_chunks;  // per shard, its chunks in order
     std::vector<uint32_t> fill;  // per shard, keys in its last chunk (chunk_slots_: none open)
+    std::vector<uint64_t*> next;  // per shard, where its next key goes (valid if fill < chunk)
     std::vector<ExtraCount> extras;
     uint64_t keys = 0;  // keys in the arena
     uint64_t ngrams = 0;
@@ -104,6 +103,8 @@ class SegmentBuilder {
   void ShardSpans(const Worker& w, uint32_t s, std::vector<std::span<const uint64_t>>* out) const;
   Status Spill(Worker* w);
   void ResetBuffer(Worker* w);
+  // Commits the arena's pages ahead of use, a stretch at a time.
+  void PrefaultArena(Worker* w);
   // Slots in use if `more_chunks` chunks and `more_extras` extras were added.
   bool Fits(const Worker& w, size_t more_chunks, size_t more_extras) const {
     return (w.chunks_used + more_chunks) * chunk_slots_ + 2 * (w.extras.size() + more_extras) <=

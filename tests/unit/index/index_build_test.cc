@@ -94,6 +94,32 @@ TEST_CASE("build from documents: lookups equal a reference count", "[index][buil
   }
 }
 
+TEST_CASE("edge fingerprints: 0, all ones, repeats inside a document", "[index][build]") {
+  // 0 is the builder's empty-slot marker inside a document's set: it must count like
+  // any other key, as must the extremes of shards 0 and 255.
+  std::vector<std::vector<uint64_t>> docs = {
+      {0, 0, 5, 0, ~0ull, 5},
+      {0, 7, ~0ull, ~0ull, 0x00ffffffffffffffull},
+      {},
+      {0},
+      {0x0100000000000000ull, 0x0100000000000000ull, 0}};
+  for (int i = 0; i < 300; ++i) docs.push_back({static_cast<uint64_t>(i) * 0x9e3779b97f4a7c15ull, 0});
+  const auto ref = ReferenceCounts(docs);
+  for (const uint64_t budget : {uint64_t{256} << 20, uint64_t{1}}) {  // in memory; spilled
+    const std::string dir = testing::ScratchDir("edge_fps") + "/idx" + std::to_string(budget);
+    IndexBuildOptions o = SmallOptions(2);
+    o.memory_budget = budget;
+    IndexBuildStats st;
+    REQUIRE(BuildIndexFromDocuments(dir, docs, o, false, &st).ok());
+    CHECK(st.ngrams_distinct == ref.size());
+    auto idx = Index::Open(dir);
+    REQUIRE(idx.ok());
+    CheckAgainstReference(**idx, ref);
+    IndexVerifyReport vr;
+    CHECK(VerifyIndex(dir, 2, &vr).ok());
+  }
+}
+
 TEST_CASE("index bytes do not depend on threads, memory budget or document order",
           "[index][build][determinism]") {
   const auto docs = MakeDocuments(2, 3000, 80, 50000);
