@@ -72,6 +72,8 @@ class BloomFilterBuilder {
   /// Adds every key; fastest when they are ascending (any order is correct).
   void AddAll(std::span<const uint64_t> keys);
   const std::vector<uint8_t>& bytes() const { return bytes_; }
+  /// Moves the blocks out (the builder is empty afterwards).
+  std::vector<uint8_t> TakeBytes() { return std::move(bytes_); }
   uint64_t num_blocks() const { return num_blocks_; }
   uint32_t k() const { return k_; }
   BloomFilterView view() const {

@@ -27,8 +27,8 @@ constexpr size_t kRunReadBuffer = 64 << 10;
 // remainders ~5 (written after the key array is freed) + directory.
 constexpr uint64_t kWriterBytesPerKey = 16;
 // In-memory finish, per key of the shard being written: sorted keys 8 + sort scratch
-// 8 + counts 2 + Bloom ~1.25 + packed remainders ~5 + directory + the file image ~9.
-constexpr uint64_t kInMemoryBytesPerKey = 34;
+// 8 + counts 2 + Bloom ~1.25 + packed remainders ~5 + directory.
+constexpr uint64_t kInMemoryBytesPerKey = 26;
 // Shard images queued for (or in) the background write, and their bytes per key.
 constexpr uint64_t kPendingImages = 3;
 constexpr uint64_t kImageBytesPerKey = 9;

@@ -157,12 +157,12 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   }
 
   // Remainders, bit-packed; + 8 zero bytes.
-  const std::string rem = PackRemainders(keys, w);
+  std::string rem = PackRemainders(keys, w);
   // The key array is no longer needed; free it before the write buffers grow.
   std::vector<uint64_t>().swap(keys_);
 
-  const std::string count_ex = ExceptionBytes(count_exceptions_);
-  const std::string doc_ex = ExceptionBytes(doc_exceptions_);
+  std::string count_ex = ExceptionBytes(count_exceptions_);
+  std::string doc_ex = ExceptionBytes(doc_exceptions_);
 
   struct Piece {
     const char* data;
@@ -210,12 +210,15 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   const uint64_t header_sum = XXH3_64bits(header, fmt::off::kHeaderChecksum);
   fmt::StoreLE64(header + fmt::off::kHeaderChecksum, header_sum);
 
-  // The whole file in one buffer: header, sections, zero padding.
-  out->bytes.assign(file_bytes, '\0');
-  std::memcpy(out->bytes.data(), header, sizeof(header));
-  for (int i = 0; i < fmt::kNumSections; ++i) {
-    if (pieces[i].size > 0) std::memcpy(out->bytes.data() + offsets[i], pieces[i].data, pieces[i].size);
-  }
+  out->header.assign(header, sizeof(header));
+  out->offsets = offsets;
+  out->bloom = bloom.TakeBytes();
+  out->dir = std::move(dir);
+  out->rem = std::move(rem);
+  out->counts = std::move(counts_);
+  out->count_ex = std::move(count_ex);
+  out->docs = std::move(docs_);
+  out->doc_ex = std::move(doc_ex);
   ShardFileInfo& info = out->info;
   info.shard_id = params_.shard_id;
   info.keys = n;
@@ -224,6 +227,21 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   info.total_count = total_count_;
   info.total_docs = total_docs_;
   return Status::Ok();
+}
+
+std::string_view ShardImage::Section(int i) const {
+  auto bytes = [](const std::vector<uint8_t>& v) {
+    return std::string_view(reinterpret_cast<const char*>(v.data()), v.size());
+  };
+  switch (i) {
+    case fmt::kSecBloom: return bytes(bloom);
+    case fmt::kSecDirectory: return dir;
+    case fmt::kSecRemainders: return rem;
+    case fmt::kSecCounts: return bytes(counts);
+    case fmt::kSecCountExceptions: return count_ex;
+    case fmt::kSecDocs: return bytes(docs);
+    default: return doc_ex;
+  }
 }
 
 Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct) {
@@ -236,7 +254,17 @@ Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* inf
 
 Status WriteShardImage(const ShardImage& image, const std::string& path, Env* env, bool direct) {
   TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path, FileOptions{direct}));
-  TM_RETURN_IF_ERROR(file->Append(image.bytes));
+  TM_RETURN_IF_ERROR(file->Append(image.header));
+  static const char kZeros[64] = {};
+  uint64_t pos = image.header.size();
+  for (int i = 0; i < fmt::kNumSections; ++i) {
+    const std::string_view sec = image.Section(i);
+    if (image.offsets[i] > pos) {
+      TM_RETURN_IF_ERROR(file->Append(std::string_view(kZeros, image.offsets[i] - pos)));
+    }
+    if (!sec.empty()) TM_RETURN_IF_ERROR(file->Append(sec));
+    pos = image.offsets[i] + sec.size();
+  }
   TM_RETURN_IF_ERROR(file->Sync());
   return file->Close();
 }

@@ -7,7 +7,9 @@
 #ifndef TIDEMARK_SRC_INDEX_SHARD_WRITER_H_
 #define TIDEMARK_SRC_INDEX_SHARD_WRITER_H_
 
+#include <array>
 #include <cstdint>
+#include <string_view>
 #include <span>
 #include <string>
 #include <utility>
@@ -36,10 +38,16 @@ struct ShardFileInfo {
   uint64_t total_docs = 0;
 };
 
-/// A shard file's bytes, ready to be written, and what the manifest records of it.
+/// A shard file ready to be written: its header and sections (owned, not yet laid out
+/// in one buffer: WriteShardImage streams them with the padding between), and what the
+/// manifest records of it.
 struct ShardImage {
-  std::string bytes;
+  std::string header;
+  std::vector<uint8_t> bloom, counts, docs;
+  std::string dir, rem, count_ex, doc_ex;
+  std::array<uint64_t, 7> offsets{};  ///< of each section (docs/index_format.md order)
   ShardFileInfo info;
+  std::string_view Section(int i) const;
 };
 
 /// Writes `image` to `path` (created or truncated) and fsyncs it.
