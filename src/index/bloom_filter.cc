@@ -16,11 +16,13 @@ double BloomFilterView::FillRatio() const {
 }
 
 BloomFilterBuilder::BloomFilterBuilder(uint64_t num_keys, uint32_t bits_per_key,
-                                       uint32_t shard_bits)
+                                       uint32_t shard_bits, std::vector<uint8_t> storage)
     : num_blocks_(index_format::BloomBlocksFor(num_keys, bits_per_key)),
       k_(index_format::BloomKFor(bits_per_key)),
       shard_bits_(shard_bits),
-      bytes_(num_blocks_ * index_format::kBloomBlockBytes, 0) {}
+      bytes_(std::move(storage)) {
+  bytes_.assign(num_blocks_ * index_format::kBloomBlockBytes, 0);
+}
 
 namespace {
 

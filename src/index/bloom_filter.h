@@ -67,7 +67,9 @@ class BloomFilterView {
 /// with `shard_bits` (keys added in ascending order touch the blocks in order).
 class BloomFilterBuilder {
  public:
-  BloomFilterBuilder(uint64_t num_keys, uint32_t bits_per_key, uint32_t shard_bits);
+  /// `storage`: a buffer to reuse (its capacity is kept; the contents are reset).
+  BloomFilterBuilder(uint64_t num_keys, uint32_t bits_per_key, uint32_t shard_bits,
+                     std::vector<uint8_t> storage = {});
   void Add(uint64_t fp);
   /// Adds every key; fastest when they are ascending (any order is correct).
   void AddAll(std::span<const uint64_t> keys);

@@ -21,12 +21,12 @@ uint64_t SatAdd(uint64_t a, uint64_t b) {
 }
 
 // Bit-packs the low `w` bits of every key into little-endian 64-bit words (key i at
-// bit i*w of the stream), followed by 8 zero bytes.
-std::string PackRemainders(std::span<const uint64_t> keys, uint32_t w) {
+// bit i*w of the stream), followed by 8 zero bytes, into *out (its capacity reused).
+void PackRemainders(std::span<const uint64_t> keys, uint32_t w, std::string* out) {
   const uint64_t mask = w == 64 ? ~0ull : (1ull << w) - 1;
   const uint64_t words = (keys.size() * w + 63) / 64;
-  std::string out(words * 8 + 8, '\0');
-  char* p = out.data();
+  out->assign(words * 8 + 8, '\0');
+  char* p = out->data();
   uint64_t acc = 0;
   uint32_t fill = 0;
   for (const uint64_t k : keys) {
@@ -43,7 +43,6 @@ std::string PackRemainders(std::span<const uint64_t> keys, uint32_t w) {
     }
   }
   if (fill > 0) fmt::StoreLE64(p, acc);
-  return out;
 }
 
 inline void EncodeCount(uint64_t v, uint32_t index, std::vector<uint8_t>* bytes,
@@ -70,11 +69,15 @@ std::string ExceptionBytes(const std::vector<std::pair<uint32_t, uint32_t>>& ex)
 
 ShardWriter::ShardWriter(const ShardParams& params) : params_(params) {}
 
-void ShardWriter::UseKeys(const uint64_t* keys, size_t capacity) {
+void ShardWriter::UseKeys(const uint64_t* keys, size_t capacity, ShardImage* recycle) {
   assert(keys_.empty() && counts_.empty());
   external_keys_ = keys;
   external_capacity_ = capacity;
   external_ = true;
+  if (recycle != nullptr) {
+    counts_.swap(recycle->counts);
+    docs_.swap(recycle->docs);
+  }
   counts_.resize(capacity);
   docs_.resize(capacity);
 }
@@ -143,11 +146,13 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
 
   // Bloom filter.
   // Ascending keys fill the blocks front to back.
-  BloomFilterBuilder bloom(n, params_.bloom_bits_per_key, s);
+  // The sections go into *out's buffers, whose capacity a recycled image brings along.
+  BloomFilterBuilder bloom(n, params_.bloom_bits_per_key, s, std::move(out->bloom));
   bloom.AddAll(keys);
 
   // Directory: dir[j] = first key of bucket j.
-  std::string dir((num_buckets + 1) * 4, '\0');
+  std::string dir = std::move(out->dir);
+  dir.assign((num_buckets + 1) * 4, '\0');
   {
     uint64_t i = 0;
     for (uint64_t j = 0; j <= num_buckets; ++j) {
@@ -157,7 +162,8 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   }
 
   // Remainders, bit-packed; + 8 zero bytes.
-  std::string rem = PackRemainders(keys, w);
+  std::string rem = std::move(out->rem);
+  PackRemainders(keys, w, &rem);
   // The key array is no longer needed; free it before the write buffers grow.
   std::vector<uint64_t>().swap(keys_);
 

@@ -68,7 +68,9 @@ class ShardWriter {
   /// outlive Finish); AddCounts is called once per key, in order, and the key count
   /// is the number of AddCounts calls. keys[i] must hold the i-th key (ascending,
   /// unique) by the time Finish runs. REQUIRES: no Add before or after.
-  void UseKeys(const uint64_t* keys, size_t capacity);
+  /// `recycle`: an image already written, whose buffers are reused (no allocation,
+  /// no page faults, no heap growth); BuildImage then reuses the rest of them.
+  void UseKeys(const uint64_t* keys, size_t capacity, ShardImage* recycle = nullptr);
   void AddCounts(uint64_t count, uint64_t docs);
   /// Approximate bytes held (for the memory budget).
   uint64_t MemoryBytes() const;
@@ -78,7 +80,7 @@ class ShardWriter {
   Status Finish(const std::string& path, Env* env, ShardFileInfo* info, bool direct = false);
   /// The file's bytes without writing them (Finish = BuildImage + WriteShardImage);
   /// `path` only names the file in errors. In bulk mode the caller's keys may be
-  /// reused once this returns.
+  /// reused once this returns. The sections are built in *out's existing buffers.
   Status BuildImage(const std::string& path, ShardImage* out);
 
  private:
