@@ -114,6 +114,17 @@ class BackgroundShardWriter {
   std::thread thread_;  // last: starts after the members it uses
 };
 
+// Lays out shard s (in `image`'s reused buffers), records it in the manifest segment
+// and queues its write.
+Status SubmitShard(ShardWriter* writer, uint32_t s, const std::string& staging_dir,
+                   ShardImage image, BackgroundShardWriter* io, ManifestSegment* seg) {
+  const std::string path = JoinPath(staging_dir, fmt::ShardFileName(s));
+  TM_RETURN_IF_ERROR(writer->BuildImage(path, &image));
+  seg->shards[s] = ManifestShard{s, image.info.keys, image.info.bytes, image.info.header_xxh3};
+  io->Submit(std::move(image), path);
+  return Status::Ok();
+}
+
 // [begin, end) of each shard in a sorted extras list.
 std::vector<size_t> ExtraCuts(const std::vector<ExtraCount>& extras, uint32_t shard_bits) {
   const uint32_t num_shards = 1u << shard_bits;
@@ -452,15 +463,12 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
             writer.AddCounts(count, j - i);
             i = j;
           }
-          const std::string path = JoinPath(staging_dir, fmt::ShardFileName(s));
-          Status st = writer.BuildImage(path, &image);
+          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, seg);
           if (!st.ok() || io.failed()) {
             shard_status[s] = st;
             failed = true;
             return;
           }
-          seg->shards[s] = ManifestShard{s, image.info.keys, image.info.bytes, image.info.header_xxh3};
-          io.Submit(std::move(image), path);
           ReportShardDone(&shards_done, progress_total);
         },
         tbb::simple_partitioner());
@@ -581,11 +589,8 @@ Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_m
             keys[u++] = fp;
             writer.AddCounts(count, docs);
           }
-          const std::string path = JoinPath(staging_dir, fmt::ShardFileName(s));
-          Status st = writer.BuildImage(path, &image);
+          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, seg);
           if (!st.ok() || io.failed()) return fail(st);
-          seg->shards[s] = ManifestShard{s, image.info.keys, image.info.bytes, image.info.header_xxh3};
-          io.Submit(std::move(image), path);
           ReportShardDone(&shards_done, progress_total);
         },
         tbb::simple_partitioner());
