@@ -10,10 +10,13 @@
 
 #include <set>
 #include <sstream>
+#include <string>
+#include <vector>
 
 #include "clean/clean_internal.h"
 #include "clean/codec.h"
 #include "clean/json_locate.h"
+#include "common/env.h"
 #include "common/text_util.h"
 #include "test_util.h"
 #include "tidemark/clean.h"
@@ -195,6 +198,91 @@ TEST_CASE("clean keeps .zst and .gz compression and reruns byte-identically", "[
   CHECK(ReadFile(c->files[0].output) == want);
   CHECK(ReadFile(c->files[1].output) == ReadFile(packed->files[0].output));
   CHECK(ReadFile(c->files[2].output) == ReadFile(packed->files[1].output));
+}
+
+// Writes fail once `budget` bytes have gone out (disk full), or renames onto a path
+// ending in `fail_rename` fail.
+class FaultyEnv : public Env {
+ public:
+  uint64_t budget = ~0ull;
+  std::string fail_rename;
+  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
+                                                        FileOptions options) override {
+    TM_ASSIGN_OR_RETURN(auto f, Env::NewWritableFile(path, options));
+    return std::unique_ptr<WritableFile>(new File(std::move(f), this));
+  }
+  Status Rename(const std::string& from, const std::string& to) override {
+    if (!fail_rename.empty() && to.size() >= fail_rename.size() &&
+        to.compare(to.size() - fail_rename.size(), fail_rename.size(), fail_rename) == 0) {
+      return Status::IOError("rename " + from + ": injected failure");
+    }
+    return Env::Rename(from, to);
+  }
+
+ private:
+  class File : public WritableFile {
+   public:
+    File(std::unique_ptr<WritableFile> f, FaultyEnv* env) : f_(std::move(f)), env_(env) {}
+    Status Append(std::string_view data) override {
+      if (data.size() > env_->budget) return Status::IOError("write: No space left on device");
+      env_->budget -= data.size();
+      return f_->Append(data);
+    }
+    Status Sync() override { return f_->Sync(); }
+    Status Close() override { return f_->Close(); }
+    uint64_t size() const override { return f_->size(); }
+
+   private:
+    std::unique_ptr<WritableFile> f_;
+    FaultyEnv* env_;
+  };
+};
+
+TEST_CASE("a failed write or commit is an error and leaves no partial file", "[clean][faults]") {
+  if (!HaveRealText()) return;
+  const Fixture f = MakeFixture("clean_faults");
+  int rc;
+  RunCommand("mkdir -p " + f.dir + "/three && for n in a b c; do cp " + f.corpus + " " + f.dir +
+                 "/three/$n.jsonl; done",
+             &rc);
+  REQUIRE(rc == 0);
+  const std::vector<std::string> inputs = {f.dir + "/three/a.jsonl", f.dir + "/three/b.jsonl",
+                                           f.dir + "/three/c.jsonl"};
+  auto table = BuildTable(f);
+  auto no_temp_files = [](const std::string& dir) {
+    int r;
+    const std::string temps = RunCommand("find " + dir + " -name '*.tmp.*' | wc -l", &r);
+    return r == 0 && std::stoi(temps) == 0;
+  };
+  // The commit of the second file (which runs while the third is cleaned) fails: the
+  // run fails, b's output does not exist, and no temp file is left.
+  for (const bool direct : {true, false}) {
+    FaultyEnv env;
+    env.fail_rename = "/b.jsonl";
+    CleanOptions opt;
+    opt.corpus_read.id_field = "id";
+    opt.direct_writes = direct;
+    opt.env = &env;
+    const std::string out = f.dir + (direct ? "/out_rename_direct" : "/out_rename_cached");
+    auto r = CleanCorpus(*table, inputs, out, opt);
+    REQUIRE_FALSE(r.ok());
+    CHECK(r.status().code() == StatusCode::kIOError);
+    CHECK(r.status().message().find("injected failure") != std::string::npos);
+    CHECK_FALSE(PathExists(out + "/b.jsonl"));
+    CHECK_FALSE(PathExists(out + "/tidemark-clean-log.jsonl"));
+    CHECK(no_temp_files(out));
+  }
+  // Disk full while the first file is written.
+  FaultyEnv env;
+  env.budget = 100000;
+  CleanOptions opt;
+  opt.corpus_read.id_field = "id";
+  opt.env = &env;
+  auto r = CleanCorpus(*table, inputs, f.dir + "/out_full", opt);
+  REQUIRE_FALSE(r.ok());
+  CHECK(r.status().message().find("No space left") != std::string::npos);
+  CHECK_FALSE(PathExists(f.dir + "/out_full/a.jsonl"));
+  CHECK(no_temp_files(f.dir + "/out_full"));
 }
 
 TEST_CASE("clean refuses to overwrite its input", "[clean]") {
