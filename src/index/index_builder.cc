@@ -586,10 +586,12 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
   seg->shards.assign(num_shards, ManifestShard{});
   FirstError errors;
   std::atomic<uint32_t> done{0};
+  // Shard files are written in the background while the next shards are merged.
+  BackgroundShardWriter io(env, direct, /*max_pending=*/2);
   tbb::task_arena arena(threads);
   arena.execute([&] {
     tbb::parallel_for(uint32_t{0}, num_shards, [&](uint32_t s) {
-      if (errors.failed() || CancelRequested()) return;
+      if (errors.failed() || io.failed() || CancelRequested()) return;
       std::vector<std::unique_ptr<SortedSource>> sources;
       for (const ShardReader* r : by_shard[s]) sources.push_back(std::make_unique<ShardSource>(r));
       ShardParams p = base;
@@ -599,14 +601,13 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
         writer.Add(r.fp, r.count, r.docs);
         return Status::Ok();
       });
-      ShardFileInfo info;
-      if (st.ok()) st = writer.Finish(JoinPath(staging, fmt::ShardFileName(s)), env, &info, direct);
+      if (st.ok()) st = SubmitShard(&writer, s, staging, io.TakeWritten(), &io, &seg->shards[s]);
       if (!st.ok()) return errors.Set(st);
-      seg->shards[s] = ManifestShard{s, info.keys, info.bytes, info.header_xxh3};
       progress->SetDone(done.fetch_add(1) + 1);
       progress->Report("merging");
     }, tbb::simple_partitioner());
   });
+  errors.Set(io.Finish());
   TM_RETURN_IF_ERROR(errors.status());
   if (CancelRequested()) return Status::Cancelled("merge interrupted");
   seg->ngrams_distinct = 0;

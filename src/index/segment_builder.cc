@@ -36,95 +36,6 @@ constexpr uint64_t kRunMergeBytesPerRecord = 34;
 constexpr uint64_t kPendingImages = 3;
 constexpr uint64_t kImageBytesPerKey = 9;
 
-// Writes shard images on its own thread, so that sorting the next shard overlaps the
-// disk write (and fsync) of the last one. At most `max_pending` images wait; Submit
-// blocks beyond that, bounding the memory held. The first error stops further writes
-// and is returned by Finish.
-class BackgroundShardWriter {
- public:
-  BackgroundShardWriter(Env* env, bool direct, size_t max_pending)
-      : env_(env), direct_(direct), max_pending_(max_pending), thread_([this] { Loop(); }) {}
-  ~BackgroundShardWriter() { (void)Finish(); }
-
-  void Submit(ShardImage image, std::string path) {
-    std::unique_lock<std::mutex> lock(mu_);
-    space_.wait(lock, [&] { return queue_.size() < max_pending_ || !status_.ok(); });
-    if (!status_.ok()) return;
-    queue_.push_back({std::move(image), std::move(path)});
-    ready_.notify_one();
-  }
-  // An image already written, for its buffers (or an empty one). Reusing them keeps
-  // the large per-shard buffers out of malloc: allocated on one thread and freed on
-  // another, they fragmented its per-thread arenas (peak RSS of a spilling build rose
-  // from 0.87x to 1.23x its budget).
-  ShardImage TakeWritten() {
-    std::lock_guard<std::mutex> lock(mu_);
-    if (written_.empty()) return ShardImage{};
-    ShardImage image = std::move(written_.back());
-    written_.pop_back();
-    return image;
-  }
-  bool failed() {
-    std::lock_guard<std::mutex> lock(mu_);
-    return !status_.ok();
-  }
-  Status Finish() {
-    {
-      std::lock_guard<std::mutex> lock(mu_);
-      done_ = true;
-      ready_.notify_one();
-    }
-    if (thread_.joinable()) thread_.join();
-    written_.clear();
-    return status_;
-  }
-
- private:
-  struct Job {
-    ShardImage image;
-    std::string path;
-  };
-  void Loop() {
-    while (true) {
-      Job job;
-      {
-        std::unique_lock<std::mutex> lock(mu_);
-        ready_.wait(lock, [&] { return !queue_.empty() || done_; });
-        if (queue_.empty()) return;
-        job = std::move(queue_.front());
-        queue_.pop_front();
-      }
-      Status st = status_.ok() ? WriteShardImage(job.image, job.path, env_, direct_) : Status::Ok();
-      std::lock_guard<std::mutex> lock(mu_);
-      if (!st.ok() && status_.ok()) status_ = st;
-      written_.push_back(std::move(job.image));
-      space_.notify_all();
-    }
-  }
-
-  Env* env_;
-  bool direct_;
-  size_t max_pending_;
-  std::mutex mu_;
-  std::condition_variable ready_, space_;
-  std::deque<Job> queue_;
-  std::vector<ShardImage> written_;  // for TakeWritten; freed by Finish
-  bool done_ = false;
-  Status status_;
-  std::thread thread_;  // last: starts after the members it uses
-};
-
-// Lays out shard s (in `image`'s reused buffers), records it in the manifest segment
-// and queues its write.
-Status SubmitShard(ShardWriter* writer, uint32_t s, const std::string& staging_dir,
-                   ShardImage image, BackgroundShardWriter* io, ManifestSegment* seg) {
-  const std::string path = JoinPath(staging_dir, fmt::ShardFileName(s));
-  TM_RETURN_IF_ERROR(writer->BuildImage(path, &image));
-  seg->shards[s] = ManifestShard{s, image.info.keys, image.info.bytes, image.info.header_xxh3};
-  io->Submit(std::move(image), path);
-  return Status::Ok();
-}
-
 // [begin, end) of each shard in a sorted extras list.
 std::vector<size_t> ExtraCuts(const std::vector<ExtraCount>& extras, uint32_t shard_bits) {
   const uint32_t num_shards = 1u << shard_bits;
@@ -463,7 +374,7 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
             writer.AddCounts(count, j - i);
             i = j;
           }
-          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, seg);
+          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, &seg->shards[s]);
           if (!st.ok() || io.failed()) {
             shard_status[s] = st;
             failed = true;
@@ -589,7 +500,7 @@ Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_m
             keys[u++] = fp;
             writer.AddCounts(count, docs);
           }
-          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, seg);
+          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, &seg->shards[s]);
           if (!st.ok() || io.failed()) return fail(st);
           ReportShardDone(&shards_done, progress_total);
         },

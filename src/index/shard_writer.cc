@@ -258,6 +258,15 @@ Status ShardWriter::Finish(const std::string& path, Env* env, ShardFileInfo* inf
   return Status::Ok();
 }
 
+Status SubmitShard(ShardWriter* writer, uint32_t shard, const std::string& staging_dir,
+                   ShardImage image, BackgroundShardWriter* io, ManifestShard* manifest_shard) {
+  const std::string path = JoinPath(staging_dir, fmt::ShardFileName(shard));
+  TM_RETURN_IF_ERROR(writer->BuildImage(path, &image));
+  *manifest_shard = ManifestShard{shard, image.info.keys, image.info.bytes, image.info.header_xxh3};
+  io->Submit(std::move(image), path);
+  return Status::Ok();
+}
+
 Status WriteShardImage(const ShardImage& image, const std::string& path, Env* env, bool direct) {
   TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path, FileOptions{direct}));
   TM_RETURN_IF_ERROR(file->Append(image.header));
