@@ -9,8 +9,10 @@
 #include <cerrno>
 #include <cstring>
 #include <queue>
+#include <span>
 
 #include "index/format.h"
+#include "index/radix_sort.h"
 
 namespace tidemark {
 
@@ -260,6 +262,66 @@ Result<std::unique_ptr<RunFile>> RunFile::Open(const std::string& path, uint32_t
 
 std::unique_ptr<SortedSource> RunFile::ShardRange(uint32_t shard, size_t buffer_bytes) const {
   return std::make_unique<RunRangeSource>(fd_, &path_, shard, ranges_[shard], buffer_bytes);
+}
+
+Status RadixMergeSources(std::vector<std::unique_ptr<SortedSource>>& sources, uint32_t shard_bits,
+                         RadixMergeScratch* sc, ShardWriter* writer, ShardImage* recycle) {
+  using Special = RadixMergeScratch::Special;
+  sc->plain.clear();
+  sc->special.clear();
+  for (const auto& src : sources) {
+    MergeRecord r;
+    bool first = true;
+    uint64_t prev = 0;
+    while (src->Next(&r)) {
+      if (!first && r.fp <= prev) {
+        return Status::Corruption("merge input not sorted after fingerprint " + std::to_string(prev));
+      }
+      first = false;
+      prev = r.fp;
+      if (r.count == 1 && r.docs == 1) {
+        sc->plain.push_back(r.fp);
+      } else {
+        sc->special.push_back(Special{r.fp, r.count, r.docs});
+      }
+    }
+    TM_RETURN_IF_ERROR(src->status());
+  }
+  const size_t n = sc->plain.size();
+  const size_t cap = n + sc->special.size();
+  if (sc->sorted.size() < n) sc->sorted.resize(n);
+  if (sc->out.size() < cap) sc->out.resize(cap);
+  // out doubles as the sort's scratch, then receives the distinct keys.
+  const std::span<const uint64_t> in(sc->plain.data(), n);
+  SortShard(std::span<const std::span<const uint64_t>>(&in, 1), shard_bits, sc->sorted.data(),
+            sc->out.data());
+  std::sort(sc->special.begin(), sc->special.end());
+  auto sat = [](uint64_t a, uint64_t b) {
+    const uint64_t t = a + b;
+    return t < a ? ~uint64_t{0} : t;
+  };
+  uint64_t* keys = sc->out.data();
+  writer->UseKeys(keys, cap, recycle);
+  const uint64_t* sorted = sc->sorted.data();
+  const std::vector<Special>& sp = sc->special;
+  size_t i = 0, e = 0, u = 0;
+  while (i < n || e < sp.size()) {
+    const uint64_t fp = e == sp.size() || (i < n && sorted[i] <= sp[e].fp) ? sorted[i] : sp[e].fp;
+    uint64_t count = 0, docs = 0;
+    while (i < n && sorted[i] == fp) {
+      ++count;
+      ++docs;
+      ++i;
+    }
+    while (e < sp.size() && sp[e].fp == fp) {
+      count = sat(count, sp[e].count);
+      docs = sat(docs, sp[e].docs);
+      ++e;
+    }
+    keys[u++] = fp;
+    writer->AddCounts(count, docs);
+  }
+  return Status::Ok();
 }
 
 }  // namespace tidemark

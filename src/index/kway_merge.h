@@ -123,6 +123,25 @@ class RunFile {
   std::vector<Range> ranges_;
 };
 
+/// Reused buffers of RadixMergeSources (one per thread).
+struct RadixMergeScratch {
+  struct Special {
+    uint64_t fp, count, docs;
+    bool operator<(const Special& o) const { return fp < o.fp; }
+  };
+  std::vector<uint64_t> plain, sorted, out;
+  std::vector<Special> special;
+};
+
+/// Merges `sources` (records of one shard with `shard_bits`) into `writer` (bulk mode,
+/// with `recycle`'s buffers): the same records as MergeSources, found without a heap.
+/// The common record (count 1, one document) keeps only its key, and those keys of
+/// all sources are radix-sorted together; the others are sorted apart and summed in
+/// while the sorted keys are collapsed. A source out of order is Corruption. The keys
+/// live in scratch->out until the writer's BuildImage has run.
+Status RadixMergeSources(std::vector<std::unique_ptr<SortedSource>>& sources, uint32_t shard_bits,
+                         RadixMergeScratch* scratch, ShardWriter* writer, ShardImage* recycle);
+
 /// Merges `sources`, summing counts and docs of equal fingerprints (saturating at
 /// 2^64-1), and calls `emit(const MergeRecord&)` -> Status in ascending order.
 template <typename Emit>

@@ -410,24 +410,11 @@ Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_m
   const int conc = static_cast<int>(std::clamp<uint64_t>(
       avail / std::max<uint64_t>(per_shard, 1), 1, static_cast<uint64_t>(conc_max)));
 
-  // Per shard: every run's records are read; the common kind (count 1, one document)
-  // keeps only its key, and those keys are radix-sorted together, so the runs need no
-  // heap merge; the others (an n-gram seen several times within one run) are sorted
-  // apart and summed in while the sorted keys are collapsed.
-  struct Special {
-    uint64_t fp, count, docs;
-    bool operator<(const Special& o) const { return fp < o.fp; }
-  };
-  struct Scratch {
-    std::vector<uint64_t> plain, sorted, out;
-    std::vector<Special> special;
-  };
-  tbb::enumerable_thread_specific<Scratch> scratch;
+  tbb::enumerable_thread_specific<RadixMergeScratch> scratch;
   std::vector<Status> shard_status(num_shards_);
   std::atomic<bool> failed{false};
   std::atomic<uint32_t> shards_done{0};
   const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
-  const uint32_t bits = params_.shard_bits;
   BackgroundShardWriter io(env_, direct_writes_, kPendingImages - 1);
   tbb::task_arena merge_arena(conc);
   merge_arena.execute([&] {
@@ -439,66 +426,17 @@ Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_m
             shard_status[s] = std::move(st);
             failed = true;
           };
-          Scratch& sc = scratch.local();
-          sc.plain.clear();
-          sc.special.clear();
+          std::vector<std::unique_ptr<SortedSource>> sources;
           for (const auto& rf : runs) {
-            if (rf->RecordsIn(s) == 0) continue;
-            std::unique_ptr<SortedSource> src = rf->ShardRange(s, kRunReadBuffer);
-            MergeRecord r;
-            bool first = true;
-            uint64_t prev = 0;
-            while (src->Next(&r)) {
-              if (!first && r.fp <= prev) {
-                return fail(Status::Corruption(rf->path() + ": shard " + std::to_string(s) +
-                                               " not sorted after fingerprint " + std::to_string(prev)));
-              }
-              first = false;
-              prev = r.fp;
-              if (r.count == 1 && r.docs == 1) {
-                sc.plain.push_back(r.fp);
-              } else {
-                sc.special.push_back(Special{r.fp, r.count, r.docs});
-              }
-            }
-            if (Status st = src->status(); !st.ok()) return fail(st);
+            if (rf->RecordsIn(s) > 0) sources.push_back(rf->ShardRange(s, kRunReadBuffer));
           }
-          const size_t n = sc.plain.size();
-          if (sc.sorted.size() < n) sc.sorted.resize(n);
-          if (sc.out.size() < n + sc.special.size()) sc.out.resize(n + sc.special.size());
-          // sc.out doubles as the sort's scratch, then receives the distinct keys.
-          const std::span<const uint64_t> in(sc.plain.data(), n);
-          SortShard(std::span<const std::span<const uint64_t>>(&in, 1), bits, sc.sorted.data(),
-                    sc.out.data());
-          std::sort(sc.special.begin(), sc.special.end());
-          auto sat = [](uint64_t a, uint64_t b) {
-            const uint64_t t = a + b;
-            return t < a ? ~uint64_t{0} : t;
-          };
           ShardParams p = params_;
           p.shard_id = s;
           ShardWriter writer(p);
-          uint64_t* keys = sc.out.data();
           ShardImage image = io.TakeWritten();
-          writer.UseKeys(keys, n + sc.special.size(), &image);
-          const uint64_t* sorted = sc.sorted.data();
-          const std::vector<Special>& sp = sc.special;
-          size_t i = 0, e = 0, u = 0;
-          while (i < n || e < sp.size()) {
-            const uint64_t fp = e == sp.size() || (i < n && sorted[i] <= sp[e].fp) ? sorted[i] : sp[e].fp;
-            uint64_t count = 0, docs = 0;
-            while (i < n && sorted[i] == fp) {
-              ++count;
-              ++docs;
-              ++i;
-            }
-            while (e < sp.size() && sp[e].fp == fp) {
-              count = sat(count, sp[e].count);
-              docs = sat(docs, sp[e].docs);
-              ++e;
-            }
-            keys[u++] = fp;
-            writer.AddCounts(count, docs);
+          if (Status st = RadixMergeSources(sources, p.shard_bits, &scratch.local(), &writer, &image);
+              !st.ok()) {
+            return fail(st.WithContext("merging the runs of shard " + std::to_string(s)));
           }
           Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, &seg->shards[s]);
           if (!st.ok() || io.failed()) return fail(st);
