@@ -8,10 +8,10 @@
 #include <algorithm>
 #include <chrono>
 #include <condition_variable>
-#include <deque>
-#include <thread>
 #include <cstdio>
+#include <deque>
 #include <span>
+#include <thread>
 
 #include "index/format.h"
 #include "index/radix_sort.h"
@@ -71,8 +71,8 @@ SegmentBuilder::SegmentBuilder(const ShardParams& params, int workers, uint64_t 
                                ProgressReporter* progress, bool direct_writes)
     : params_(params),
       num_shards_(1u << params.shard_bits),
-      capacity_slots_(std::max<size_t>(kMinCapacitySlots,
-                                       buffer_bytes / 8 / static_cast<uint64_t>(std::max(1, workers)))),
+      capacity_slots_(std::max<size_t>(
+          kMinCapacitySlots, buffer_bytes / 8 / static_cast<uint64_t>(std::max(1, workers)))),
       merge_budget_(merge_budget),
       run_dir_(std::move(run_dir)),
       env_(env),
@@ -177,7 +177,8 @@ void SegmentBuilder::PrefaultArena(Worker* w) {
   constexpr size_t kStretch = (size_t{32} << 20) / sizeof(uint64_t);
   constexpr uintptr_t kPage = 4096;
   const size_t end = std::min(capacity_slots_, w->populated + kStretch);
-  const uintptr_t b = (reinterpret_cast<uintptr_t>(w->arena.get() + w->populated) + kPage - 1) & ~(kPage - 1);
+  const uintptr_t b =
+      (reinterpret_cast<uintptr_t>(w->arena.get() + w->populated) + kPage - 1) & ~(kPage - 1);
   const uintptr_t e = reinterpret_cast<uintptr_t>(w->arena.get() + end) & ~(kPage - 1);
 #ifdef MADV_POPULATE_WRITE
   if (e > b) (void)::madvise(reinterpret_cast<void*>(b), e - b, MADV_POPULATE_WRITE);
@@ -229,8 +230,9 @@ Status SegmentBuilder::Spill(Worker* w) {
     for (const auto& in : inputs) n += in.size();
     if (n == 0) continue;
     SortShard(inputs, bits, sorted.data(), scratch.data());
-    BufferSource src(std::span<const uint64_t>(sorted.data(), n),
-                     std::span<const ExtraCount>(w->extras.data() + ecuts[s], ecuts[s + 1] - ecuts[s]));
+    BufferSource src(
+        std::span<const uint64_t>(sorted.data(), n),
+        std::span<const ExtraCount>(w->extras.data() + ecuts[s], ecuts[s + 1] - ecuts[s]));
     MergeRecord rec;
     while (src.Next(&rec)) TM_RETURN_IF_ERROR(writer.Add(s, rec));
   }
@@ -260,9 +262,8 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     // Everything goes through runs; the buffers are freed before the merge.
     std::vector<Status> worker_status(workers_.size());
     arena.execute([&] {
-      tbb::parallel_for(size_t{0}, workers_.size(), [&](size_t i) {
-        worker_status[i] = Spill(&workers_[i]);
-      });
+      tbb::parallel_for(size_t{0}, workers_.size(),
+                        [&](size_t i) { worker_status[i] = Spill(&workers_[i]); });
     });
     for (const Status& s : worker_status) TM_RETURN_IF_ERROR(s);
     for (Worker& w : workers_) {
@@ -313,80 +314,59 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
   for (const Worker& w : workers_) in_memory += w.keys * 8 + w.extras.capacity() * 16;
   in_memory += kPendingImages * kImageBytesPerKey * largest;
   const uint64_t avail = merge_budget_ > in_memory ? merge_budget_ - in_memory : 0;
-  const int conc = static_cast<int>(std::clamp<uint64_t>(
-      avail / std::max<uint64_t>(largest * kInMemoryBytesPerKey, 1), 1,
-      static_cast<uint64_t>(conc_max)));
+  const int conc = static_cast<int>(
+      std::clamp<uint64_t>(avail / std::max<uint64_t>(largest * kInMemoryBytesPerKey, 1), 1,
+                           static_cast<uint64_t>(conc_max)));
 
   struct Scratch {
     std::vector<uint64_t> sorted, scratch;
     std::vector<ExtraCount> extras;
   };
   tbb::enumerable_thread_specific<Scratch> scratch;
-  std::vector<Status> shard_status(num_shards_);
-  std::atomic<bool> failed{false};
-  std::atomic<uint32_t> shards_done{0};
-  const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
-  BackgroundShardWriter io(env_, direct_writes_, kPendingImages - 1);
-  tbb::task_arena merge_arena(conc);
-  merge_arena.execute([&] {
-    tbb::parallel_for(
-        uint32_t{0}, num_shards_,
-        [&](uint32_t s) {
-          if (failed.load() || CancelRequested()) return;
-          Scratch& sc = scratch.local();
-          std::vector<std::span<const uint64_t>> inputs;
-          sc.extras.clear();
-          for (size_t i = 0; i < nw; ++i) {
-            const Worker& w = workers_[i];
-            ShardSpans(w, s, &inputs);
-            sc.extras.insert(sc.extras.end(), w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s]),
-                             w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s + 1]));
-          }
-          size_t n = 0;
-          for (const auto& in : inputs) n += in.size();
-          if (nw > 1) std::sort(sc.extras.begin(), sc.extras.end());
-          if (sc.sorted.size() < n) {
-            // Sized once for the largest shard, so the pages are faulted in once.
-            sc.sorted.resize(largest);
-            sc.scratch.resize(largest);
-          }
-          uint64_t* keys = sc.sorted.data();
-          SortShard(inputs, bits, keys, sc.scratch.data());
-          // Collapse in place: a key's repeats are its documents; extras add
-          // occurrences.
-          ShardParams p = params_;
-          p.shard_id = s;
-          ShardWriter writer(p);
-          ShardImage image = io.TakeWritten();
-          writer.UseKeys(keys, n, &image);
-          size_t u = 0, e = 0;
-          const std::vector<ExtraCount>& ex = sc.extras;
-          for (size_t i = 0; i < n;) {
-            const uint64_t fp = keys[i];
-            size_t j = i + 1;
-            while (j < n && keys[j] == fp) ++j;
-            uint64_t count = j - i;
-            while (e < ex.size() && ex[e].fp <= fp) {
-              if (ex[e].fp == fp) count += ex[e].extra;
-              ++e;
-            }
-            keys[u++] = fp;
-            writer.AddCounts(count, j - i);
-            i = j;
-          }
-          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, &seg->shards[s]);
-          if (!st.ok() || io.failed()) {
-            shard_status[s] = st;
-            failed = true;
-            return;
-          }
-          ReportShardDone(&shards_done, progress_total);
-        },
-        tbb::simple_partitioner());
+  return ForEachShard(conc, [&](uint32_t s, BackgroundShardWriter* io) -> Status {
+    Scratch& sc = scratch.local();
+    std::vector<std::span<const uint64_t>> inputs;
+    sc.extras.clear();
+    for (size_t i = 0; i < nw; ++i) {
+      const Worker& w = workers_[i];
+      ShardSpans(w, s, &inputs);
+      sc.extras.insert(sc.extras.end(), w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s]),
+                       w.extras.begin() + static_cast<ptrdiff_t>(ecuts[i][s + 1]));
+    }
+    size_t n = 0;
+    for (const auto& in : inputs) n += in.size();
+    if (nw > 1) std::sort(sc.extras.begin(), sc.extras.end());
+    if (sc.sorted.size() < n) {
+      // Sized once for the largest shard, so the pages are faulted in once.
+      sc.sorted.resize(largest);
+      sc.scratch.resize(largest);
+    }
+    uint64_t* keys = sc.sorted.data();
+    SortShard(inputs, bits, keys, sc.scratch.data());
+    // Collapse in place: a key's repeats are its documents; extras add
+    // occurrences.
+    ShardParams p = params_;
+    p.shard_id = s;
+    ShardWriter writer(p);
+    ShardImage image = io->TakeWritten();
+    writer.UseKeys(keys, n, &image);
+    size_t u = 0, e = 0;
+    const std::vector<ExtraCount>& ex = sc.extras;
+    for (size_t i = 0; i < n;) {
+      const uint64_t fp = keys[i];
+      size_t j = i + 1;
+      while (j < n && keys[j] == fp) ++j;
+      uint64_t count = j - i;
+      while (e < ex.size() && ex[e].fp <= fp) {
+        if (ex[e].fp == fp) count += ex[e].extra;
+        ++e;
+      }
+      keys[u++] = fp;
+      writer.AddCounts(count, j - i);
+      i = j;
+    }
+    return SubmitShard(&writer, s, staging_dir, std::move(image), io, &seg->shards[s]);
   });
-  TM_RETURN_IF_ERROR(io.Finish());
-  for (const Status& st : shard_status) TM_RETURN_IF_ERROR(st);
-  return Status::Ok();
 }
 
 Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_max,
@@ -404,42 +384,48 @@ Status SegmentBuilder::FinishFromRuns(const std::string& staging_dir, int conc_m
     for (const auto& rf : runs) r += rf->RecordsIn(s);
     max_shard_records = std::max(max_shard_records, r);
   }
-  const uint64_t per_shard = max_shard_records * kRunMergeBytesPerRecord + runs.size() * kRunReadBuffer;
+  const uint64_t per_shard =
+      max_shard_records * kRunMergeBytesPerRecord + runs.size() * kRunReadBuffer;
   const uint64_t queued = kPendingImages * kImageBytesPerKey * max_shard_records;
   const uint64_t avail = merge_budget_ > queued ? merge_budget_ - queued : 0;
-  const int conc = static_cast<int>(std::clamp<uint64_t>(
-      avail / std::max<uint64_t>(per_shard, 1), 1, static_cast<uint64_t>(conc_max)));
+  const int conc = static_cast<int>(std::clamp<uint64_t>(avail / std::max<uint64_t>(per_shard, 1),
+                                                         1, static_cast<uint64_t>(conc_max)));
 
   tbb::enumerable_thread_specific<RadixMergeScratch> scratch;
+  return ForEachShard(conc, [&](uint32_t s, BackgroundShardWriter* io) -> Status {
+    std::vector<std::unique_ptr<SortedSource>> sources;
+    for (const auto& rf : runs) {
+      if (rf->RecordsIn(s) > 0) sources.push_back(rf->ShardRange(s, kRunReadBuffer));
+    }
+    ShardParams p = params_;
+    p.shard_id = s;
+    ShardWriter writer(p);
+    ShardImage image = io->TakeWritten();
+    TM_RETURN_IF_ERROR(RadixMergeSources(sources, p.shard_bits, &scratch.local(), &writer, &image)
+                           .WithContext("merging the runs of shard " + std::to_string(s)));
+    return SubmitShard(&writer, s, staging_dir, std::move(image), io, &seg->shards[s]);
+  });
+}
+
+Status SegmentBuilder::ForEachShard(
+    int conc, const std::function<Status(uint32_t, BackgroundShardWriter*)>& fn) {
   std::vector<Status> shard_status(num_shards_);
   std::atomic<bool> failed{false};
   std::atomic<uint32_t> shards_done{0};
   const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
   BackgroundShardWriter io(env_, direct_writes_, kPendingImages - 1);
-  tbb::task_arena merge_arena(conc);
-  merge_arena.execute([&] {
+  tbb::task_arena arena(conc);
+  arena.execute([&] {
     tbb::parallel_for(
         uint32_t{0}, num_shards_,
         [&](uint32_t s) {
-          if (failed.load() || CancelRequested()) return;
-          auto fail = [&](Status st) {
+          if (failed.load() || io.failed() || CancelRequested()) return;
+          Status st = fn(s, &io);
+          if (!st.ok()) {
             shard_status[s] = std::move(st);
             failed = true;
-          };
-          std::vector<std::unique_ptr<SortedSource>> sources;
-          for (const auto& rf : runs) {
-            if (rf->RecordsIn(s) > 0) sources.push_back(rf->ShardRange(s, kRunReadBuffer));
+            return;
           }
-          ShardParams p = params_;
-          p.shard_id = s;
-          ShardWriter writer(p);
-          ShardImage image = io.TakeWritten();
-          if (Status st = RadixMergeSources(sources, p.shard_bits, &scratch.local(), &writer, &image);
-              !st.ok()) {
-            return fail(st.WithContext("merging the runs of shard " + std::to_string(s)));
-          }
-          Status st = SubmitShard(&writer, s, staging_dir, std::move(image), &io, &seg->shards[s]);
-          if (!st.ok() || io.failed()) return fail(st);
           ReportShardDone(&shards_done, progress_total);
         },
         tbb::simple_partitioner());

@@ -17,6 +17,7 @@
 
 #include <atomic>
 #include <cstdint>
+#include <functional>
 #include <memory>
 #include <mutex>
 #include <span>
@@ -116,6 +117,9 @@ class SegmentBuilder {
   // Runs (everything spilled): per shard, k-way merge the runs and write.
   Status FinishFromRuns(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
   void ReportShardDone(std::atomic<uint32_t>* done, uint64_t total_bytes);
+  // Runs fn(shard, writer) for every shard on `conc` threads, the shard files going
+  // through one background writer; reports progress; the first error wins.
+  Status ForEachShard(int conc, const std::function<Status(uint32_t, BackgroundShardWriter*)>& fn);
 
   ShardParams params_;
   uint32_t num_shards_;

@@ -18,6 +18,7 @@
 #include "clean/json_locate.h"
 #include "common/env.h"
 #include "common/text_util.h"
+#include "faulty_env.h"
 #include "test_util.h"
 #include "tidemark/clean.h"
 
@@ -200,43 +201,7 @@ TEST_CASE("clean keeps .zst and .gz compression and reruns byte-identically", "[
   CHECK(ReadFile(c->files[2].output) == ReadFile(packed->files[1].output));
 }
 
-// Writes fail once `budget` bytes have gone out (disk full), or renames onto a path
-// ending in `fail_rename` fail.
-class FaultyEnv : public Env {
- public:
-  uint64_t budget = ~0ull;
-  std::string fail_rename;
-  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
-                                                        FileOptions options) override {
-    TM_ASSIGN_OR_RETURN(auto f, Env::NewWritableFile(path, options));
-    return std::unique_ptr<WritableFile>(new File(std::move(f), this));
-  }
-  Status Rename(const std::string& from, const std::string& to) override {
-    if (!fail_rename.empty() && to.size() >= fail_rename.size() &&
-        to.compare(to.size() - fail_rename.size(), fail_rename.size(), fail_rename) == 0) {
-      return Status::IOError("rename " + from + ": injected failure");
-    }
-    return Env::Rename(from, to);
-  }
-
- private:
-  class File : public WritableFile {
-   public:
-    File(std::unique_ptr<WritableFile> f, FaultyEnv* env) : f_(std::move(f)), env_(env) {}
-    Status Append(std::string_view data) override {
-      if (data.size() > env_->budget) return Status::IOError("write: No space left on device");
-      env_->budget -= data.size();
-      return f_->Append(data);
-    }
-    Status Sync() override { return f_->Sync(); }
-    Status Close() override { return f_->Close(); }
-    uint64_t size() const override { return f_->size(); }
-
-   private:
-    std::unique_ptr<WritableFile> f_;
-    FaultyEnv* env_;
-  };
-};
+using testing::FaultyEnv;
 
 TEST_CASE("a failed write or commit is an error and leaves no partial file", "[clean][faults]") {
   if (!HaveRealText()) return;

@@ -13,6 +13,7 @@
 #include "common/env.h"
 #include "index/manifest.h"
 #include "index_test_util.h"
+#include "faulty_env.h"
 #include "test_util.h"
 #include "tidemark/index.h"
 
@@ -269,42 +270,7 @@ TEST_CASE("manifest records parameters and round-trips", "[index][manifest]") {
   CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kUnsupported);
 }
 
-// An Env whose writes fail once `budget` bytes have been written (disk full), or
-// whose renames fail.
-class FaultyEnv : public Env {
- public:
-  uint64_t budget = ~0ull;
-  bool fail_rename_manifest = false;
-  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
-                                                        FileOptions options) override {
-    TM_ASSIGN_OR_RETURN(auto f, Env::NewWritableFile(path, options));
-    return std::unique_ptr<WritableFile>(new File(std::move(f), this));
-  }
-  Status Rename(const std::string& from, const std::string& to) override {
-    if (fail_rename_manifest && to.find("manifest.json") != std::string::npos) {
-      return Status::IOError("rename " + from + ": injected failure");
-    }
-    return Env::Rename(from, to);
-  }
-
- private:
-  class File : public WritableFile {
-   public:
-    File(std::unique_ptr<WritableFile> f, FaultyEnv* env) : f_(std::move(f)), env_(env) {}
-    Status Append(std::string_view data) override {
-      if (data.size() > env_->budget) return Status::IOError("write: No space left on device");
-      env_->budget -= data.size();
-      return f_->Append(data);
-    }
-    Status Sync() override { return f_->Sync(); }
-    Status Close() override { return f_->Close(); }
-    uint64_t size() const override { return f_->size(); }
-
-   private:
-    std::unique_ptr<WritableFile> f_;
-    FaultyEnv* env_;
-  };
-};
+using testing::FaultyEnv;
 
 TEST_CASE("disk full or a failed rename leaves no index", "[index][faults]") {
   const auto docs = MakeDocuments(7, 500, 40, 10000);
@@ -325,7 +291,7 @@ TEST_CASE("disk full or a failed rename leaves no index", "[index][faults]") {
   }
   const std::string dir = testing::ScratchDir("renamefail") + "/idx";
   FaultyEnv env;
-  env.fail_rename_manifest = true;
+  env.fail_rename = "/manifest.json";
   IndexBuildOptions o = SmallOptions();
   o.env = &env;
   IndexBuildStats st;
