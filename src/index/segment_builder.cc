@@ -23,9 +23,6 @@ namespace fmt = index_format;
 namespace {
 constexpr size_t kMinCapacitySlots = 4096;
 constexpr size_t kRunReadBuffer = 64 << 10;
-// Peak bytes of a shard writer per key: key 8 + counts 2 + Bloom ~1.25 + packed
-// remainders ~5 (written after the key array is freed) + directory.
-constexpr uint64_t kWriterBytesPerKey = 16;
 // In-memory finish, per key of the shard being written: sorted keys 8 + sort scratch
 // 8 + counts 2 + Bloom ~1.25 + packed remainders ~5 + directory.
 constexpr uint64_t kInMemoryBytesPerKey = 26;

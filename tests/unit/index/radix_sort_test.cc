@@ -11,50 +11,6 @@
 namespace tidemark {
 namespace {
 
-TEST_CASE("RadixSort64 sorts like std::sort", "[index][sort]") {
-  testing::SplitMix64 rng(7);
-  for (const size_t n : {size_t{0}, size_t{1}, size_t{100}, size_t{5000}, size_t{300000}}) {
-    std::vector<uint64_t> v(n);
-    for (auto& x : v) {
-      x = rng.Next();
-      if (x % 3 == 0) x &= 0xFF000000000000FFull;  // shared high bytes, duplicates
-    }
-    std::vector<uint64_t> want = v;
-    std::sort(want.begin(), want.end());
-    RadixSort64(v.data(), v.size());
-    CHECK(v == want);
-  }
-  // Skewed: one top byte for all keys (the in-place MSD path), and a few top bytes.
-  for (const uint64_t mask : {0x00FFFFFFFFFFFFFFull, 0x03FFFFFFFFFFFFFFull}) {
-    std::vector<uint64_t> v(200000);
-    for (auto& x : v) x = (rng.Next() & mask) | 0x4000000000000000ull;
-    std::vector<uint64_t> want = v;
-    std::sort(want.begin(), want.end());
-    RadixSort64(v.data(), v.size());
-    CHECK(v == want);
-  }
-}
-
-TEST_CASE("PartitionByTopBits groups keys by their top bits", "[index][sort]") {
-  testing::SplitMix64 rng(11);
-  for (const uint32_t bits : {0u, 1u, 8u, 12u}) {
-    std::vector<uint64_t> v(50000);
-    for (auto& x : v) x = rng.Next();
-    std::vector<uint64_t> before = v;
-    std::vector<size_t> cuts((size_t{1} << bits) + 1);
-    PartitionByTopBits(v.data(), v.size(), bits, cuts.data());
-    CHECK(cuts.back() == v.size());
-    for (size_t d = 0; d + 1 < cuts.size(); ++d) {
-      for (size_t i = cuts[d]; i < cuts[d + 1]; ++i) {
-        REQUIRE((bits == 0 ? 0 : v[i] >> (64 - bits)) == d);
-      }
-    }
-    std::sort(before.begin(), before.end());
-    std::sort(v.begin(), v.end());
-    CHECK(v == before);  // a permutation
-  }
-}
-
 TEST_CASE("SortShard sorts several inputs like std::sort", "[index][sort]") {
   testing::SplitMix64 rng(5);
   // Shard bits 0, 8 and 16; uniform keys, duplicates, keys that differ only in their
