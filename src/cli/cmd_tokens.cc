@@ -76,14 +76,34 @@ struct Totals {
   uint64_t records = 0, tokens = 0, fingerprints = 0, invalid_utf8 = 0;
 };
 
+// One record's tokens, their normalized text, its fingerprints (if asked for) and its
+// invalid UTF-8 bytes; added to the totals.
+struct Tokenized {
+  std::vector<Token> tokens;
+  std::vector<std::string> normalized;
+  std::vector<uint64_t> fps;
+  uint64_t invalid = 0;
+};
+
+Tokenized TokenizeRecord(std::string_view text, const TextOptions& options, bool fingerprints,
+                         Tokenizer* tokenizer, Totals* totals) {
+  Tokenized r;
+  const uint64_t invalid_before = tokenizer->invalid_utf8_bytes();
+  tokenizer->TokenizeWithText(text, &r.tokens, &r.normalized);
+  r.invalid = tokenizer->invalid_utf8_bytes() - invalid_before;
+  if (fingerprints) ComputeFingerprints(r.tokens, options, &r.fps);
+  ++totals->records;
+  totals->tokens += r.tokens.size();
+  totals->fingerprints += r.fps.size();
+  totals->invalid_utf8 += r.invalid;
+  return r;
+}
+
 void AppendRecordJson(const std::string& source, uint64_t line, const std::string& id,
                       std::string_view text, const TextOptions& options, bool fingerprints,
                       Tokenizer* tokenizer, Totals* totals, std::string* out) {
-  std::vector<Token> tokens;
-  std::vector<std::string> normalized;
-  const uint64_t invalid_before = tokenizer->invalid_utf8_bytes();
-  tokenizer->TokenizeWithText(text, &tokens, &normalized);
-  const uint64_t invalid = tokenizer->invalid_utf8_bytes() - invalid_before;
+  const auto [tokens, normalized, fps, invalid] =
+      TokenizeRecord(text, options, fingerprints, tokenizer, totals);
   out->clear();
   *out += "{\"source\":";
   AppendJsonString(out, source);
@@ -100,11 +120,7 @@ void AppendRecordJson(const std::string& source, uint64_t line, const std::strin
             "}";
   }
   *out += ']';
-  size_t fp_count = 0;
   if (fingerprints) {
-    std::vector<uint64_t> fps;
-    ComputeFingerprints(tokens, options, &fps);
-    fp_count = fps.size();
     *out += ",\"fingerprints\":[";
     for (size_t i = 0; i < fps.size(); ++i) {
       if (i > 0) *out += ',';
@@ -113,10 +129,6 @@ void AppendRecordJson(const std::string& source, uint64_t line, const std::strin
     *out += ']';
   }
   *out += "}\n";
-  ++totals->records;
-  totals->tokens += tokens.size();
-  totals->fingerprints += fp_count;
-  totals->invalid_utf8 += invalid;
 }
 
 // Terminal columns, roughly: one per character, two for the CJK and Hangul ranges
@@ -137,13 +149,8 @@ size_t DisplayWidth(std::string_view s) {
 void AppendRecordTable(const std::string& source, uint64_t line, const std::string& id,
                        std::string_view text, const TextOptions& options, bool fingerprints,
                        Tokenizer* tokenizer, Totals* totals, std::string* out) {
-  std::vector<Token> tokens;
-  std::vector<std::string> normalized;
-  const uint64_t invalid_before = tokenizer->invalid_utf8_bytes();
-  tokenizer->TokenizeWithText(text, &tokens, &normalized);
-  const uint64_t invalid = tokenizer->invalid_utf8_bytes() - invalid_before;
-  std::vector<uint64_t> fps;
-  if (fingerprints) ComputeFingerprints(tokens, options, &fps);
+  const auto [tokens, normalized, fps, invalid] =
+      TokenizeRecord(text, options, fingerprints, tokenizer, totals);
   out->clear();
   *out += source + ":" + std::to_string(line);
   if (id != std::to_string(line)) *out += " id " + id;
@@ -174,10 +181,6 @@ void AppendRecordTable(const std::string& source, uint64_t line, const std::stri
     for (size_t k = i; k < i + static_cast<size_t>(options.ngram); ++k) *out += " " + normalized[k];
     *out += "\n";
   }
-  ++totals->records;
-  totals->tokens += tokens.size();
-  totals->fingerprints += fps.size();
-  totals->invalid_utf8 += invalid;
 }
 
 Result<InputFormat> ParseFormat(const std::string& f) {

@@ -328,7 +328,8 @@ Result<IndexManifest> IndexManifest::Parse(std::string_view json, const std::str
   TM_RETURN_IF_ERROR(p.Get(top, "format_version", &version, "manifest"));
   if (version != static_cast<uint64_t>(kFormatVersion)) {
     return Status::Unsupported(path + ": index format version " + std::to_string(version) +
-                               " (this build reads " + std::to_string(kFormatVersion) + ")");
+                               " (this build reads " + std::to_string(kFormatVersion) +
+                               "); rebuild it with `tidemark index build`");
   }
   TM_RETURN_IF_ERROR(p.Keys(top, {"format", "format_version", "text_options", "text", "read",
                                   "shard_bits", "bloom", "segments"},

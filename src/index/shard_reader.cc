@@ -70,7 +70,8 @@ Result<std::unique_ptr<ShardReader>> ShardReader::Open(const std::string& path,
   const uint32_t version = fmt::LoadLE32(h + fmt::off::kVersion);
   if (version != fmt::kFormatVersion) {
     return Status::Unsupported(path + "@8: shard format version " + std::to_string(version) +
-                               " (this build reads " + std::to_string(fmt::kFormatVersion) + ")");
+                               " (this build reads " + std::to_string(fmt::kFormatVersion) +
+                               "); rebuild the index with `tidemark index build`");
   }
   if (fmt::LoadLE32(h + fmt::off::kHeaderBytesField) != fmt::kHeaderBytes) {
     return CorruptAt(path, fmt::off::kHeaderBytesField, "bad header size");

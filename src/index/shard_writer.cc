@@ -120,11 +120,6 @@ void ShardWriter::Add(uint64_t fp, uint64_t count, uint64_t docs) {
   total_docs_ = SatAdd(total_docs_, docs > fmt::kMaxCount ? fmt::kMaxCount : docs);
 }
 
-uint64_t ShardWriter::MemoryBytes() const {
-  return keys_.capacity() * 8 + counts_.capacity() + docs_.capacity() +
-         (count_exceptions_.capacity() + doc_exceptions_.capacity()) * 8;
-}
-
 Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   if (external_) {
     counts_.resize(added_);

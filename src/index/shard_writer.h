@@ -77,8 +77,6 @@ class ShardWriter {
   /// no page faults, no heap growth); BuildImage then reuses the rest of them.
   void UseKeys(const uint64_t* keys, size_t capacity, ShardImage* recycle = nullptr);
   void AddCounts(uint64_t count, uint64_t docs);
-  /// Approximate bytes held (for the memory budget).
-  uint64_t MemoryBytes() const;
 
   /// Writes the shard to `path` (created or truncated) and fsyncs it. `direct`
   /// writes around the page cache (FileOptions::direct).
