@@ -155,9 +155,10 @@ int Build(const Args& a, bool quiet_header = false) {
               a.threads, build_s, raw / 1e6 / build_s, (unsigned long long)st.records,
               (unsigned long long)st.ngrams_total, (unsigned long long)st.ngrams_distinct,
               (unsigned long long)st.spills, st.spilled_bytes / 1e6);
-  std::printf("  phases: reading %.2f s, sorting + writing shards %.2f s; CPU %.2f s (%.2f cores "
-              "busy on average); shard writes %s\n",
-              st.seconds_reading, st.seconds_writing, cpu_s, cpu_s / build_s,
+  std::printf("  phases: reading %.2f s (CPU %.2f s), sorting + writing shards %.2f s (CPU %.2f s); "
+              "CPU %.2f s in all (%.2f cores busy on average); shard writes %s\n",
+              st.seconds_reading, st.cpu_seconds_reading, st.seconds_writing,
+              st.cpu_seconds_writing, cpu_s, cpu_s / build_s,
               a.cached_writes ? "through the page cache" : "direct (O_DIRECT)");
   std::printf("ratio build / zstd:      %.2f (target <= 2)\n", build_s / zstd_s);
   std::printf("index size:              %.1f MB, %.3f bytes per distinct n-gram (target <= 10, "
@@ -283,7 +284,8 @@ int Sink(const Args& a) {
       f = index_format::Mix64(x);
     }
   }
-  double best = 1e30, best_add = 0, best_write = 0, best_cpu = 0;
+  double best = 1e30, best_add = 0, best_write = 0, best_cpu = 0, best_add_cpu = 0,
+         best_write_cpu = 0;
   for (int r = 0; r < a.repeat; ++r) {
     std::filesystem::remove_all(a.out);
     IndexBuildOptions o;
@@ -304,12 +306,17 @@ int Sink(const Args& a) {
       best = sec;
       best_add = st.seconds_reading;
       best_write = st.seconds_writing;
+      best_add_cpu = st.cpu_seconds_reading;
+      best_write_cpu = st.cpu_seconds_writing;
       best_cpu = cpu;
     }
   }
   std::printf("index side, %llu random keys, %d threads, best of %d: %.2f s wall (adding %.2f s, "
-              "sorting + writing %.2f s), CPU %.2f s = %.1f ns per key; shard writes %s\n",
-              (unsigned long long)n, a.threads, a.repeat, best, best_add, best_write, best_cpu,
+              "CPU %.1f ns per key; sorting + writing %.2f s, CPU %.1f ns per key), CPU %.2f s = "
+              "%.1f ns per key; shard writes %s\n",
+              (unsigned long long)n, a.threads, a.repeat, best, best_add,
+              best_add_cpu / static_cast<double>(n) * 1e9, best_write,
+              best_write_cpu / static_cast<double>(n) * 1e9, best_cpu,
               best_cpu / static_cast<double>(n) * 1e9, a.cached_writes ? "cached" : "direct");
   std::filesystem::remove_all(a.out);
   return 0;

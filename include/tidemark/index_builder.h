@@ -72,6 +72,8 @@ struct IndexBuildStats {
   double seconds = 0;
   double seconds_reading = 0;  ///< reading, tokenizing, buffering and spilling
   double seconds_writing = 0;  ///< sorting, merging and writing the shard files
+  double cpu_seconds_reading = 0;  ///< process CPU time (user + system) of the first phase
+  double cpu_seconds_writing = 0;  ///< ... and of the second
 };
 
 /// Indexes `inputs` (files, already expanded: see ExpandInputs) into a new index at

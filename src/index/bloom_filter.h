@@ -67,6 +67,8 @@ class BloomFilterView {
 /// with `shard_bits` (keys added in ascending order touch the blocks in order).
 class BloomFilterBuilder {
  public:
+  /// The largest k the format allows (index_format::BloomKFor).
+  static constexpr uint32_t kMaxK = 16;
   /// `storage`: a buffer to reuse (its capacity is kept; the contents are reset).
   BloomFilterBuilder(uint64_t num_keys, uint32_t bits_per_key, uint32_t shard_bits,
                      std::vector<uint8_t> storage = {});

@@ -4,6 +4,7 @@
 #include <fcntl.h>
 #include <signal.h>
 #include <sys/file.h>
+#include <sys/resource.h>
 #include <sys/stat.h>
 #include <unistd.h>
 #define XXH_STATIC_LINKING_ONLY  // XXH3_state_t on the stack
@@ -46,6 +47,14 @@ namespace fmt = index_format;
 namespace {
 
 using Clock = std::chrono::steady_clock;
+
+// User + system CPU seconds of the whole process so far.
+double ProcessCpuSeconds() {
+  rusage ru;
+  ::getrusage(RUSAGE_SELF, &ru);
+  return static_cast<double>(ru.ru_utime.tv_sec + ru.ru_stime.tv_sec) +
+         static_cast<double>(ru.ru_utime.tv_usec + ru.ru_stime.tv_usec) / 1e6;
+}
 
 double SecondsSince(Clock::time_point t) {
   return std::chrono::duration<double>(Clock::now() - t).count();
@@ -430,6 +439,7 @@ using Feed = std::function<Status(SegmentBuilder*, int workers, ProgressReporter
 Status WriteSegment(SegmentJob& job, const IndexBuildOptions& o, const Feed& feed,
                     IndexBuildStats* stats) {
   const auto t0 = Clock::now();
+  const double cpu0 = ProcessCpuSeconds();
   Env* env = o.env != nullptr ? o.env : Env::Default();
   const int threads = ResolveThreads(o.threads);
   const uint64_t budget = ResolveBudget(o.memory_budget);
@@ -460,12 +470,15 @@ Status WriteSegment(SegmentJob& job, const IndexBuildOptions& o, const Feed& fee
     tbb::task_arena arena(threads);
     arena.execute([&] { st = feed(&builder, threads, &progress, &seg, stats); });
     stats->seconds_reading = SecondsSince(t0);
+    const double cpu1 = ProcessCpuSeconds();
+    stats->cpu_seconds_reading = cpu1 - cpu0;
     if (st.ok() && CancelRequested()) st = Status::Cancelled("index build interrupted");
     if (st.ok()) {
       progress.Report("merging", true);
       const auto t1 = Clock::now();
       st = builder.Finish(staging, threads, &seg);
       stats->seconds_writing = SecondsSince(t1);
+      stats->cpu_seconds_writing = ProcessCpuSeconds() - cpu1;
     }
     spills = builder.spills();
     spilled_bytes = builder.spilled_bytes();
@@ -587,7 +600,7 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
   FirstError errors;
   std::atomic<uint32_t> done{0};
   // Shard files are written in the background while the next shards are merged.
-  BackgroundShardWriter io(env, direct, /*max_pending=*/2);
+  BackgroundShardWriter io(env, direct, /*max_pending=*/1);
   tbb::task_arena arena(threads);
   arena.execute([&] {
     tbb::parallel_for(uint32_t{0}, num_shards, [&](uint32_t s) {

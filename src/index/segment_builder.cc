@@ -1,6 +1,9 @@
 #include "index/segment_builder.h"
 
 #include <sys/mman.h>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 #include <tbb/enumerable_thread_specific.h>
 #include <tbb/parallel_for.h>
 #include <tbb/task_arena.h>
@@ -9,7 +12,9 @@
 #include <chrono>
 #include <condition_variable>
 #include <cstdio>
+#include <cstring>
 #include <deque>
+#include <new>
 #include <span>
 #include <thread>
 
@@ -32,6 +37,34 @@ constexpr uint64_t kRunMergeBytesPerRecord = 34;
 // Shard images queued for (or in) the background write, and their bytes per key.
 constexpr uint64_t kPendingImages = 3;
 constexpr uint64_t kImageBytesPerKey = 9;
+
+// Keys per staging line (one 64-byte cache line).
+constexpr uint32_t kLineSlots = 8;
+
+// Copies a full line, src[0..7) then `last`, to the 64-byte aligned dst with
+// non-temporal stores. `last` comes in a register: reading it back from the line just
+// after storing it would stall on store-to-load forwarding (an 8-byte store cannot
+// forward to a 16-byte load).
+inline void StreamLine(uint64_t* dst, const uint64_t* src, uint64_t last) {
+#ifdef __SSE2__
+  auto* d = reinterpret_cast<__m128i*>(dst);
+  const auto* s = reinterpret_cast<const __m128i*>(src);
+  _mm_stream_si128(d, _mm_load_si128(s));
+  _mm_stream_si128(d + 1, _mm_load_si128(s + 1));
+  _mm_stream_si128(d + 2, _mm_load_si128(s + 2));
+  _mm_stream_si128(d + 3, _mm_set_epi64x(static_cast<long long>(last), static_cast<long long>(src[6])));
+#else
+  std::memcpy(dst, src, (kLineSlots - 1) * sizeof(uint64_t));
+  dst[kLineSlots - 1] = last;
+#endif
+}
+
+// Orders this thread's non-temporal stores before its later stores.
+inline void StoreFence() {
+#ifdef __SSE2__
+  _mm_sfence();
+#endif
+}
 
 // [begin, end) of each shard in a sorted extras list.
 std::vector<size_t> ExtraCuts(const std::vector<ExtraCount>& extras, uint32_t shard_bits) {
@@ -78,19 +111,42 @@ SegmentBuilder::SegmentBuilder(const ShardParams& params, int workers, uint64_t 
       workers_(static_cast<size_t>(std::max(1, workers))) {
   // Chunks small enough that the open (partly filled) chunk of every shard wastes at
   // most 1/16 of the buffer, large enough that a shard's keys are few long spans.
-  chunk_slots_ = std::clamp<size_t>(capacity_slots_ / (size_t{num_shards_} * 16), 1, 16384);
-  // Reserve address space once: pages are committed only when written (the arena is
-  // not value-initialized), and the buffer never reallocates.
+  // Whole staging lines.
+  chunk_slots_ = std::clamp<size_t>(capacity_slots_ / (size_t{num_shards_} * 16), kLineSlots, 16384) /
+                 kLineSlots * kLineSlots;
+  // Reserve address space once: pages are committed only when written, and the
+  // buffer never reallocates.
   for (Worker& w : workers_) {
-    w.arena = std::make_unique_for_overwrite<uint64_t[]>(capacity_slots_);
+    void* p = ::mmap(nullptr, capacity_slots_ * sizeof(uint64_t), PROT_READ | PROT_WRITE,
+                     MAP_PRIVATE | MAP_ANONYMOUS | MAP_NORESERVE, -1, 0);
+    if (p == MAP_FAILED) throw std::bad_alloc();
+    w.arena = static_cast<uint64_t*>(p);
     w.shard_chunks.resize(num_shards_);
     w.fill.assign(num_shards_, static_cast<uint32_t>(chunk_slots_));
-    w.next.assign(num_shards_, nullptr);
+    w.base.assign(num_shards_, nullptr);
+    w.stage.resize(num_shards_);
   }
 }
 
 SegmentBuilder::~SegmentBuilder() {
+  for (Worker& w : workers_) FreeArena(&w);
   if (run_dir_made_) (void)env_->RemoveTree(run_dir_);
+}
+
+void SegmentBuilder::FreeArena(Worker* w) {
+  if (w->arena != nullptr) ::munmap(w->arena, capacity_slots_ * sizeof(uint64_t));
+  w->arena = nullptr;
+}
+
+void SegmentBuilder::FlushStaging(Worker* w) {
+  const uint32_t chunk = static_cast<uint32_t>(chunk_slots_);
+  for (uint32_t s = 0; s < num_shards_; ++s) {
+    const uint32_t f = w->fill[s];
+    if (f == chunk || f % kLineSlots == 0) continue;
+    std::memcpy(w->base[s] + (f - f % kLineSlots), w->stage[s].keys,
+                (f % kLineSlots) * sizeof(uint64_t));
+  }
+  StoreFence();
 }
 
 uint64_t SegmentBuilder::ngrams_total() const {
@@ -105,58 +161,96 @@ Status SegmentBuilder::AddDocument(int worker, std::vector<uint64_t>* fps) {
   w.ngrams += v.size();
   DocSet& d = w.doc;
   size_t cap = 64;
-  while (cap < 4 * v.size()) cap *= 2;  // load <= 1/4: few probe-loop mispredictions
-  if (d.keys.size() < cap) {
-    d.keys.assign(cap, 0);
-    d.counts.assign(cap, 0);
-  }
+  while (cap < 2 * v.size()) cap *= 2;  // load <= 1/2
+  if (d.keys.size() < cap) d.keys.assign(cap, 0);
   const size_t mask = cap - 1;  // a power of two <= the table size
   uint64_t* const keys = d.keys.data();
-  uint32_t* const counts = d.counts.data();
+  d.distinct.clear();
   d.used.clear();
-  d.zero_count = 0;
+  d.repeats.clear();
+  uint32_t zero_count = 0;
   for (const uint64_t fp : v) {
     if (fp == 0) {
-      ++d.zero_count;
+      ++zero_count;
       continue;
     }
     size_t i = static_cast<size_t>(fp ^ (fp >> 29)) & mask;  // fingerprints are uniform
     while (keys[i] != 0 && keys[i] != fp) i = (i + 1) & mask;
     if (keys[i] == fp) {
-      ++counts[i];
+      d.repeats.push_back(fp);
     } else {
       keys[i] = fp;
-      counts[i] = 1;
+      d.distinct.push_back(fp);
       d.used.push_back(static_cast<uint32_t>(i));
     }
   }
+  for (const uint32_t i : d.used) keys[i] = 0;  // clear for the next document
+  // Repeats inside a document are rare: their keys take the slow path with their
+  // number of occurrences.
+  std::sort(d.repeats.begin(), d.repeats.end());
+  auto occurrences = [&](uint64_t fp) -> uint32_t {
+    const auto r = std::equal_range(d.repeats.begin(), d.repeats.end(), fp);
+    return static_cast<uint32_t>(1 + (r.second - r.first));
+  };
+  const bool any_repeats = !d.repeats.empty();
   const uint32_t bits = params_.shard_bits;
   const uint32_t chunk = static_cast<uint32_t>(chunk_slots_);
-  auto add = [&](uint64_t fp, uint32_t count) -> Status {
-    const uint32_t s = fmt::ShardOf(fp, bits);
-    const bool repeated = count > 1;
-    // A key and its extra go into the same run: make room for both first.
-    if (!Fits(w, w.fill[s] == chunk ? 1 : 0, repeated ? 1 : 0)) TM_RETURN_IF_ERROR(Spill(&w));
-    if (w.fill[s] == chunk) {
-      const size_t c = w.chunks_used++;
-      w.shard_chunks[s].push_back(static_cast<uint32_t>(c));
-      w.fill[s] = 0;
-      w.next[s] = w.arena.get() + c * chunk_slots_;
-      if (w.chunks_used * chunk_slots_ > w.populated) PrefaultArena(&w);
-    }
-    *w.next[s]++ = fp;
-    ++w.fill[s];
-    ++w.keys;
-    if (repeated) w.extras.push_back({fp, static_cast<uint64_t>(count - 1)});
-    return Status::Ok();
-  };
   Status st;
-  for (const uint32_t i : d.used) {
-    if (st.ok()) st = add(keys[i], counts[i]);
-    keys[i] = 0;  // clear for the next document
+  uint64_t appended = 0;  // fast-path keys not yet counted in w.keys
+  for (const uint64_t fp : d.distinct) {
+    const uint32_t s = fmt::ShardOf(fp, bits);
+    const uint32_t f = w.fill[s];
+    const uint32_t count = any_repeats ? occurrences(fp) : 1;
+    // The common case: room in the shard's open chunk and no repeat. (The buffer
+    // had room for this chunk when it was opened, so nothing else needs checking.)
+    if (f < chunk && count == 1) [[likely]] {
+      w.fill[s] = f + 1;
+      Append(&w, s, f, fp);
+      ++appended;
+      continue;
+    }
+    w.keys += appended;  // (a spill must see them)
+    appended = 0;
+    st = AddSlow(&w, fp, count);
+    if (!st.ok()) break;
   }
-  if (st.ok() && d.zero_count > 0) st = add(0, d.zero_count);
+  w.keys += appended;
+  if (st.ok() && zero_count > 0) st = AddSlow(&w, 0, zero_count);
+  // The lines streamed for this document reach memory before anything this thread
+  // does next (a spill, or the hand-over to the finishing threads).
+  StoreFence();
   return st;
+}
+
+inline void SegmentBuilder::Append(Worker* w, uint32_t s, uint32_t f, uint64_t fp) {
+  uint64_t* const line = w->stage[s].keys;
+  if (f % kLineSlots == kLineSlots - 1) {
+    StreamLine(w->base[s] + (f - (kLineSlots - 1)), line, fp);
+  } else {
+    line[f % kLineSlots] = fp;
+  }
+}
+
+Status SegmentBuilder::AddSlow(Worker* w, uint64_t fp, uint32_t count) {
+  const uint32_t s = fmt::ShardOf(fp, params_.shard_bits);
+  const bool repeated = count > 1;
+  const bool new_chunk = w->fill[s] == chunk_slots_;
+  // A key and its extra go into the same run: make room for both first.
+  if (!Fits(*w, new_chunk ? 1 : 0, repeated ? 1 : 0)) {
+    TM_RETURN_IF_ERROR(Spill(w));
+  }
+  if (w->fill[s] == chunk_slots_) {
+    const size_t c = w->chunks_used++;
+    w->shard_chunks[s].push_back(static_cast<uint32_t>(c));
+    w->fill[s] = 0;
+    w->base[s] = w->arena + c * chunk_slots_;
+    if (w->chunks_used * chunk_slots_ > w->populated) PrefaultArena(w);
+  }
+  const uint32_t f = w->fill[s]++;
+  Append(w, s, f, fp);
+  ++w->keys;
+  if (repeated) w->extras.push_back({fp, static_cast<uint64_t>(count - 1)});
+  return Status::Ok();
 }
 
 void SegmentBuilder::ShardSpans(const Worker& w, uint32_t s,
@@ -164,7 +258,7 @@ void SegmentBuilder::ShardSpans(const Worker& w, uint32_t s,
   const std::vector<uint32_t>& chunks = w.shard_chunks[s];
   for (size_t c = 0; c < chunks.size(); ++c) {
     const size_t n = c + 1 == chunks.size() ? w.fill[s] : chunk_slots_;
-    if (n > 0) out->emplace_back(w.arena.get() + size_t{chunks[c]} * chunk_slots_, n);
+    if (n > 0) out->emplace_back(w.arena + size_t{chunks[c]} * chunk_slots_, n);
   }
 }
 
@@ -175,8 +269,8 @@ void SegmentBuilder::PrefaultArena(Worker* w) {
   constexpr uintptr_t kPage = 4096;
   const size_t end = std::min(capacity_slots_, w->populated + kStretch);
   const uintptr_t b =
-      (reinterpret_cast<uintptr_t>(w->arena.get() + w->populated) + kPage - 1) & ~(kPage - 1);
-  const uintptr_t e = reinterpret_cast<uintptr_t>(w->arena.get() + end) & ~(kPage - 1);
+      (reinterpret_cast<uintptr_t>(w->arena + w->populated) + kPage - 1) & ~(kPage - 1);
+  const uintptr_t e = reinterpret_cast<uintptr_t>(w->arena + end) & ~(kPage - 1);
 #ifdef MADV_POPULATE_WRITE
   if (e > b) (void)::madvise(reinterpret_cast<void*>(b), e - b, MADV_POPULATE_WRITE);
 #else
@@ -196,6 +290,7 @@ void SegmentBuilder::ResetBuffer(Worker* w) {
 
 Status SegmentBuilder::Spill(Worker* w) {
   if (w->keys == 0) return Status::Ok();
+  FlushStaging(w);
   if (progress_ != nullptr) progress_->Report("spilling", true);
   const uint32_t bits = params_.shard_bits;
   std::sort(w->extras.begin(), w->extras.end());
@@ -254,6 +349,7 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
   seg->shards.assign(num_shards_, ManifestShard{});
   Status st;
   if (run_paths_.empty()) {
+    for (Worker& w : workers_) FlushStaging(&w);
     arena.execute([&] { st = FinishInMemory(staging_dir, conc_max, seg); });
   } else {
     // Everything goes through runs; the buffers are freed before the merge.
@@ -264,7 +360,7 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     });
     for (const Status& s : worker_status) TM_RETURN_IF_ERROR(s);
     for (Worker& w : workers_) {
-      w.arena.reset();
+      FreeArena(&w);
       std::vector<ExtraCount>().swap(w.extras);
     }
     if (CancelRequested()) return Status::Cancelled("index build interrupted");
@@ -316,7 +412,8 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
                            static_cast<uint64_t>(conc_max)));
 
   struct Scratch {
-    std::vector<uint64_t> sorted, scratch;
+    std::vector<uint64_t> sorted;
+    SortUniqueScratch sort;
     std::vector<ExtraCount> extras;
   };
   tbb::enumerable_thread_specific<Scratch> scratch;
@@ -336,32 +433,32 @@ Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_m
     if (sc.sorted.size() < n) {
       // Sized once for the largest shard, so the pages are faulted in once.
       sc.sorted.resize(largest);
-      sc.scratch.resize(largest);
+      sc.sort.partitioned.resize(largest);
     }
     uint64_t* keys = sc.sorted.data();
-    SortShard(inputs, bits, keys, sc.scratch.data());
-    // Collapse in place: a key's repeats are its documents; extras add
-    // occurrences.
     ShardParams p = params_;
     p.shard_id = s;
     ShardWriter writer(p);
     ShardImage image = io->TakeWritten();
     writer.UseKeys(keys, n, &image);
-    size_t u = 0, e = 0;
+    // A key's repeats are its documents; extras add occurrences. Most buckets hold
+    // neither: their keys all count once, in one document.
+    size_t e = 0;
     const std::vector<ExtraCount>& ex = sc.extras;
-    for (size_t i = 0; i < n;) {
-      const uint64_t fp = keys[i];
-      size_t j = i + 1;
-      while (j < n && keys[j] == fp) ++j;
-      uint64_t count = j - i;
-      while (e < ex.size() && ex[e].fp <= fp) {
-        if (ex[e].fp == fp) count += ex[e].extra;
-        ++e;
+    SortUnique(inputs, bits, keys, &sc.sort, [&](uint64_t* k, size_t m) -> size_t {
+      if ((e == ex.size() || ex[e].fp > k[m - 1]) && AllDistinct(k, m)) {
+        writer.AddSingles(m);
+        return m;
       }
-      keys[u++] = fp;
-      writer.AddCounts(count, j - i);
-      i = j;
-    }
+      return CollapseRuns(k, m, [&](uint64_t fp, uint64_t docs) {
+        uint64_t count = docs;
+        while (e < ex.size() && ex[e].fp <= fp) {
+          if (ex[e].fp == fp) count += ex[e].extra;
+          ++e;
+        }
+        writer.AddCounts(count, docs);
+      });
+    });
     return SubmitShard(&writer, s, staging_dir, std::move(image), io, &seg->shards[s]);
   });
 }
@@ -410,7 +507,8 @@ Status SegmentBuilder::ForEachShard(
   std::atomic<bool> failed{false};
   std::atomic<uint32_t> shards_done{0};
   const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
-  BackgroundShardWriter io(env_, direct_writes_, kPendingImages - 1);
+  BackgroundShardWriter io(env_, direct_writes_,
+                           kPendingImages - BackgroundShardWriter::kDefaultWriters);
   tbb::task_arena arena(conc);
   arena.execute([&] {
     tbb::parallel_for(

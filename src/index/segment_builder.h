@@ -75,33 +75,54 @@ class SegmentBuilder {
   uint64_t ngrams_total() const;
 
  private:
-  // Per-document distinct counting in O(n): an open-addressing set of keys (0 marks
-  // an empty slot; the key 0 itself is tracked apart), reused across documents and
-  // cleared through its list of used slots. counts[i] is only read for used slots.
+  // Per-document distinct keys in O(n): an open-addressing set of keys (0 marks an
+  // empty slot; the key 0 itself is counted apart), reused across documents and
+  // cleared through its list of used slots. Keys only, at load <= 1/2: it shares the
+  // L1 cache with the staging lines. Repeated keys are listed apart.
   struct DocSet {
     std::vector<uint64_t> keys;
-    std::vector<uint32_t> counts;
-    std::vector<uint32_t> used;  // used slots in first-seen order
-    uint32_t zero_count = 0;     // occurrences of the key 0 in this document
+    std::vector<uint64_t> distinct;  // in first-seen order
+    std::vector<uint32_t> used;      // their slots
+    std::vector<uint64_t> repeats;   // each occurrence after the first
   };
   // A worker's buffer: an arena of capacity_slots_ keys (reserved address space,
   // committed as it fills) carved into chunks of chunk_slots_ keys, each chunk
   // holding keys of one shard. Keys are thus grouped by shard as they arrive, and a
   // shard's keys are the spans of its chunks.
+  //
+  // Appends go through software write-combining: each shard's keys are collected in a
+  // cache line of `stage` and a full line is copied to the arena with non-temporal
+  // stores, so that the hundreds of scattered append streams neither read the arena's
+  // lines before writing them nor stall on them (Wassenberg and Sanders 2011,
+  // "Engineering a multi-core radix sort", section 3.1). A shard's last, partial line
+  // reaches the arena in FlushStaging.
   struct Worker {
-    std::unique_ptr<uint64_t[]> arena;
+    uint64_t* arena = nullptr;  // mmap'ed: page-aligned, so every chunk line is too
     size_t chunks_used = 0;
     size_t populated = 0;  // arena slots prefaulted (PrefaultArena)
     std::vector<std::vector<uint32_t>> shard_chunks;  // per shard, its chunks in order
     std::vector<uint32_t> fill;  // per shard, keys in its last chunk (chunk_slots_: none open)
-    std::vector<uint64_t*> next;  // per shard, where its next key goes (valid if fill < chunk)
+    std::vector<uint64_t*> base;  // per shard, its last chunk (valid if fill < chunk)
+    struct alignas(64) Line {
+      uint64_t keys[8];
+    };
+    std::vector<Line> stage;  // per shard, keys not yet in the arena (fill % 8 of them)
     std::vector<ExtraCount> extras;
     uint64_t keys = 0;  // keys in the arena
     uint64_t ngrams = 0;
     DocSet doc;
   };
-  // The spans of shard s's keys in w.
+  // Copies every shard's partial staging line to the arena and orders the
+  // non-temporal stores before what follows. REQUIRES: on w's adding thread, or after
+  // that thread synchronized with this one.
+  void FlushStaging(Worker* w);
+  void FreeArena(Worker* w);
+  // The spans of shard s's keys in w. REQUIRES: FlushStaging(w) since the last add.
   void ShardSpans(const Worker& w, uint32_t s, std::vector<std::span<const uint64_t>>* out) const;
+  // Appends fp as key f of shard s's open chunk (through its staging line).
+  void Append(Worker* w, uint32_t s, uint32_t f, uint64_t fp);
+  // Adds a key that opens a chunk or repeats in its document (may spill first).
+  Status AddSlow(Worker* w, uint64_t fp, uint32_t count);
   Status Spill(Worker* w);
   void ResetBuffer(Worker* w);
   // Commits the arena's pages ahead of use, a stretch at a time.

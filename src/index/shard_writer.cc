@@ -82,17 +82,8 @@ void ShardWriter::UseKeys(const uint64_t* keys, size_t capacity, ShardImage* rec
   docs_.resize(capacity);
 }
 
-void ShardWriter::AddCounts(uint64_t count, uint64_t docs) {
-  assert(external_ && added_ < external_capacity_);
-  assert(count >= 1 && docs >= 1 && docs <= count);
+void ShardWriter::AddLargeCounts(uint64_t count, uint64_t docs) {
   const uint32_t index = static_cast<uint32_t>(added_++);
-  if (count < fmt::kCountEscape) {  // the common case: both fit in a byte
-    counts_[index] = static_cast<uint8_t>(count);
-    docs_[index] = static_cast<uint8_t>(docs);
-    total_count_ += count;  // no wrap: at most 2^32-1 keys of at most 2^32-1 each
-    total_docs_ += docs;
-    return;
-  }
   if (count > fmt::kMaxCount) count = fmt::kMaxCount;
   if (docs > fmt::kMaxCount) docs = fmt::kMaxCount;
   counts_[index] = fmt::kCountEscape;
