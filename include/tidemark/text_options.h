@@ -20,18 +20,18 @@ struct TextOptions {
   /// Version of the text rules (normalization, tokenization, hashing). Bump it
   /// whenever any rule changes the tokens or fingerprints of some input; see
   /// docs/text_rules.md.
-  static constexpr int kRulesVersion = 1;
+  static constexpr int kRulesVersion = 2;
   static constexpr int kMinNgram = 1;
   static constexpr int kMaxNgram = 64;
 
   int ngram = 13;              ///< word n-gram length, kMinNgram..kMaxNgram
-  uint64_t seed = 0;           ///< XXH3 seed for token hashes and n-gram fingerprints
+  uint64_t seed = 0;           ///< seed of the token hashes and n-gram fingerprints
   bool strip_accents = false;  ///< drop combining marks after canonical decomposition
 
   /// OK or InvalidArgument naming the bad field.
   Status Validate() const;
 
-  /// Stable text form, e.g. "rules=1 n=13 seed=0 accents=keep". Part of the index
+  /// Stable text form, e.g. "rules=2 n=13 seed=0 accents=keep". Part of the index
   /// identity: never change it for existing versions.
   std::string ToString() const;
 

@@ -65,7 +65,9 @@ class Tokenizer {
 /// XXH3-64 of a normalized token.
 uint64_t HashToken(std::string_view normalized_token, uint64_t seed);
 
-/// Fingerprint of the n-gram whose token hashes are hashes[0..n).
+/// Fingerprint of the n-gram whose token hashes are hashes[0..n): the MurmurHash3
+/// finalizer of (sum of hashes[j] * B^(n-1-j) mod 2^64) ^ seed, B = 0x9E3779B97F4A7C15
+/// (docs/text_rules.md "Hashes and fingerprints").
 uint64_t FingerprintNgram(const uint64_t* hashes, int n, uint64_t seed);
 
 /// Replaces *out with the fingerprint of every n-gram: (*out)[i] covers

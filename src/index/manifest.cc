@@ -339,6 +339,11 @@ Result<IndexManifest> IndexManifest::Parse(std::string_view json, const std::str
   TM_RETURN_IF_ERROR(p.Get(top, "text_options", &text_options, "manifest"));
   {
     auto t = TextOptions::Parse(text_options);
+    if (!t.ok() && t.status().code() == StatusCode::kUnsupported) {
+      // Built under other text rules: its fingerprints mean something else.
+      return Status::Unsupported(path + ": text_options: " + t.status().message() +
+                                 "; rebuild the index with `tidemark index build`");
+    }
     if (!t.ok()) return t.status().WithContext(path + ": text_options");
     m.text = *t;
   }

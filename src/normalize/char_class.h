@@ -1,5 +1,5 @@
 // Classes of normalized code points that decide where tokens start and end
-// (text rules version 1, docs/text_rules.md "Tokens").
+// (text rules version 2, docs/text_rules.md "Tokens").
 //
 // Thread safety: pure functions.
 #ifndef TIDEMARK_SRC_NORMALIZE_CHAR_CLASS_H_

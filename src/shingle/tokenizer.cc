@@ -1,5 +1,5 @@
 // Tokenizer (include/tidemark/tokenizer.h): text -> tokens with original byte spans
-// and hashes, text rules version 1 (docs/text_rules.md).
+// and hashes, text rules version 2 (docs/text_rules.md).
 //
 // ASCII runs take a table-driven fast path (letters lower-cased, digits kept, every
 // other ASCII byte separates), which is exactly what NFKC_Casefold and the category

@@ -8,8 +8,9 @@ verse per line, ASCII only), writes it as JSON Lines (one verse a record, with a
 
 Shares no code with tidemark. For ASCII text the text rules (docs/text_rules.md)
 reduce to: maximal runs of [A-Za-z0-9] are the words, lower-cased; token hash =
-XXH3-64(word, seed); fingerprint = XXH3-64 of the n token hashes as little-endian
-uint64, seed (python3-xxhash).
+XXH3-64(word, seed) (python3-xxhash); fingerprint = fmix64(p ^ seed), where p is the
+sum of the n token hashes h[j] * B^(n-1-j) mod 2^64, B = 0x9E3779B97F4A7C15, and fmix64
+is MurmurHash3's 64-bit finalizer (text rules version 2). Python integers, no rolling.
 
 usage: kjv_ngrams.py N SEED CORPUS [DUPLICATES]
 DUPLICATES > 0 appends that many verses again (whole records repeated, and one
@@ -17,7 +18,6 @@ record with a verse twice inside it), so counts > 1 and docs < count occur.
 """
 import json
 import re
-import struct
 import subprocess
 import sys
 
@@ -37,6 +37,27 @@ for i in range(dups):
 if dups:
     records.append(verses[0] + " " + verses[0])
 
+MASK = (1 << 64) - 1
+B = 0x9E3779B97F4A7C15
+
+
+def fmix64(k):
+    k ^= k >> 33
+    k = (k * 0xFF51AFD7ED558CCD) & MASK
+    k ^= k >> 33
+    k = (k * 0xC4CEB9FE1A85EC53) & MASK
+    k ^= k >> 33
+    return k
+
+
+POWERS = [pow(B, n - 1 - j, 1 << 64) for j in range(n)]
+
+
+def fingerprint(hashes):
+    p = sum(h * b for h, b in zip(hashes, POWERS)) & MASK
+    return fmix64(p ^ seed)
+
+
 word = re.compile(r"[A-Za-z0-9]+")
 counts = {}
 docs = {}
@@ -47,7 +68,7 @@ with open(corpus, "w", encoding="ascii") as out:
                   for w in word.findall(rec)]
         seen = set()
         for j in range(len(hashes) - n + 1):
-            fp = xxhash.xxh3_64_intdigest(struct.pack("<%dQ" % n, *hashes[j:j + n]), seed=seed)
+            fp = fingerprint(hashes[j:j + n])
             counts[fp] = counts.get(fp, 0) + 1
             seen.add(fp)
         for fp in seen:

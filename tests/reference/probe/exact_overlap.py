@@ -14,7 +14,7 @@ matched run.
           of the US Declaration of Independence (package miscfiles,
           /usr/share/state/us-declaration.gz).
 
-Tokenizer (text rules version 1, docs/text_rules.md): NFKC_Casefold, approximated here
+Tokenizer (text rules version 2, docs/text_rules.md): NFKC_Casefold, approximated here
 as NFKC(casefold(NFKC(s))) minus default-ignorable code points (read from Unicode's
 DerivedCoreProperties.txt); letters, marks and numbers form words; Han, Hiragana,
 Katakana and Hangul characters are single tokens; everything else separates.

@@ -37,19 +37,21 @@ TEST_CASE("TM_ASSIGN_OR_RETURN propagates the first error", "[common]") {
 
 TEST_CASE("TextOptions text form round-trips and rejects bad values", "[common]") {
   TextOptions o;
-  CHECK(o.ToString() == "rules=1 n=13 seed=0 accents=keep");
+  CHECK(o.ToString() == "rules=2 n=13 seed=0 accents=keep");
   o.ngram = 8;
   o.seed = 42;
   o.strip_accents = true;
   auto parsed = TextOptions::Parse(o.ToString());
   REQUIRE(parsed.ok());
   CHECK(*parsed == o);
-  CHECK(TextOptions::Parse("rules=1 n=0").status().code() == StatusCode::kInvalidArgument);
-  CHECK(TextOptions::Parse("rules=1 n=65").status().code() == StatusCode::kInvalidArgument);
-  CHECK(TextOptions::Parse("rules=2 n=13").status().code() == StatusCode::kUnsupported);
+  CHECK(TextOptions::Parse("rules=2 n=0").status().code() == StatusCode::kInvalidArgument);
+  CHECK(TextOptions::Parse("rules=2 n=65").status().code() == StatusCode::kInvalidArgument);
+  // Version 1 (XXH3 over the token hashes) and an unknown future version.
+  CHECK(TextOptions::Parse("rules=1 n=13").status().code() == StatusCode::kUnsupported);
+  CHECK(TextOptions::Parse("rules=3 n=13").status().code() == StatusCode::kUnsupported);
   CHECK(TextOptions::Parse("n=13").status().code() == StatusCode::kBadInput);
-  CHECK(TextOptions::Parse("rules=1 colour=red").status().code() == StatusCode::kBadInput);
-  CHECK(TextOptions::Parse("rules=1 n=x").status().code() == StatusCode::kBadInput);
+  CHECK(TextOptions::Parse("rules=2 colour=red").status().code() == StatusCode::kBadInput);
+  CHECK(TextOptions::Parse("rules=2 n=x").status().code() == StatusCode::kBadInput);
 }
 
 }  // namespace

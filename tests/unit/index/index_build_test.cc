@@ -268,6 +268,15 @@ TEST_CASE("manifest records parameters and round-trips", "[index][manifest]") {
   bad = json;
   bad.replace(bad.find("\"format_version\": 2"), 19, "\"format_version\": 1");
   CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kUnsupported);
+  // So is an index built under other text rules (version 1 fingerprinted n-grams with
+  // XXH3): it must be rebuilt, never probed with fingerprints that mean something else.
+  bad = json;
+  bad.replace(bad.find("\"rules=2 "), 9, "\"rules=1 ");
+  const Status old_rules = IndexManifest::Parse(bad, "x").status();
+  CHECK(old_rules.code() == StatusCode::kUnsupported);
+  CHECK(old_rules.message() ==
+        "x: text_options: text rules version 1 (this build implements version 2); rebuild the "
+        "index with `tidemark index build`");
 }
 
 using testing::FaultyEnv;

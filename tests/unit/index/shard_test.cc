@@ -112,7 +112,7 @@ TEST_CASE("shard header fields follow docs/index_format.md", "[index][shard]") {
   p.shard_bits = 8;
   p.shard_id = 17;
   p.bloom_bits_per_key = 10;
-  p.params_hash = Checksum64("rules=1 n=13 seed=0 accents=keep");
+  p.params_hash = Checksum64("rules=2 n=13 seed=0 accents=keep");
   const std::string path = dir + "/x.tms";
   WriteShard(path, p, 1000, 3);
   const std::string f = testing::ReadFile(path);

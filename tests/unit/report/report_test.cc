@@ -129,7 +129,7 @@ ReportContext Context() {
   c.tool_version = "0.1.0";
   c.index_dir = "out/index";
   c.index_identity = "0123456789abcdef";
-  c.text_options = "rules=1 n=13 seed=0 accents=keep";
+  c.text_options = "rules=2 n=13 seed=0 accents=keep";
   c.rules = TestRules();
   c.probe.rules = c.rules;
   c.probe.boilerplate_cap = 1000;

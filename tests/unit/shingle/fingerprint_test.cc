@@ -79,21 +79,45 @@ TEST_CASE("HashToken equals xxhsum -H3 on the same bytes", "[shingle][xxh3]") {
   }
 }
 
-TEST_CASE("FingerprintNgram is XXH3 over little-endian token hashes", "[shingle][xxh3]") {
+// The definition in docs/text_rules.md, computed the long way: every power of B
+// separately (no Horner, no rolling), then the MurmurHash3 fmix64 finalizer written out
+// from Appleby's MurmurHash3.cpp (public domain; constants from memory, and checked
+// against the Python reference in tests/reference/index, which shares no code).
+uint64_t NgramByDefinition(const std::vector<uint64_t>& h, uint64_t seed) {
+  const uint64_t b = 0x9E3779B97F4A7C15ull;
+  const size_t n = h.size();
+  uint64_t p = 0;
+  for (size_t j = 0; j < n; ++j) {
+    uint64_t power = 1;
+    for (size_t e = 0; e < n - 1 - j; ++e) power *= b;
+    p += h[j] * power;
+  }
+  uint64_t k = p ^ seed;
+  k ^= k >> 33;
+  k *= 0xff51afd7ed558ccdull;
+  k ^= k >> 33;
+  k *= 0xc4ceb9fe1a85ec53ull;
+  k ^= k >> 33;
+  return k;
+}
+
+TEST_CASE("FingerprintNgram is the finalized polynomial of the token hashes", "[shingle]") {
   std::mt19937_64 rng(7);
   for (int n : {1, 2, 5, 8, 13, 16, 30, 31, 64}) {
     std::vector<uint64_t> hashes(static_cast<size_t>(n));
     for (auto& h : hashes) h = rng();
-    // The byte string the definition names: each hash as 8 little-endian bytes.
-    std::string le;
-    for (uint64_t h : hashes) {
-      for (int k = 0; k < 8; ++k) le.push_back(static_cast<char>((h >> (8 * k)) & 0xFF));
-    }
     INFO("n " << n);
-    CHECK(FingerprintNgram(hashes.data(), n, 0) == Xxhsum(le));
-    CHECK(FingerprintNgram(hashes.data(), n, 12345) == HashToken(le, 12345));
+    CHECK(FingerprintNgram(hashes.data(), n, 0) == NgramByDefinition(hashes, 0));
+    CHECK(FingerprintNgram(hashes.data(), n, 12345) == NgramByDefinition(hashes, 12345));
     CHECK(FingerprintNgram(hashes.data(), n, 12345) != FingerprintNgram(hashes.data(), n, 0));
   }
+  // fmix64 is a bijection with fmix64(0) == 0 (MurmurHash3.cpp): the all-zero n-gram
+  // at seed 0 prints as 0, which the index stores like any other key.
+  const std::vector<uint64_t> zeros(13, 0);
+  CHECK(FingerprintNgram(zeros.data(), 13, 0) == 0);
+  // Order matters: swapping two tokens changes the fingerprint.
+  std::vector<uint64_t> a = {rng(), rng(), rng()}, b = {a[1], a[0], a[2]};
+  CHECK(FingerprintNgram(a.data(), 3, 0) != FingerprintNgram(b.data(), 3, 0));
 }
 
 TEST_CASE("ComputeFingerprints covers every window", "[shingle]") {
