@@ -13,7 +13,7 @@
 namespace tidemark::index_format {
 
 /// docs/index_format.md "Version changes".
-inline constexpr uint32_t kFormatVersion = 2;
+inline constexpr uint32_t kFormatVersion = 3;
 
 /// Shard file magic, PNG-style (RFC 2083 section 12.11): high bit, "TMS", CR LF, ^Z, LF.
 inline constexpr unsigned char kShardMagic[8] = {0x89, 'T', 'M', 'S', 0x0D, 0x0A, 0x1A, 0x0A};
@@ -29,7 +29,10 @@ inline constexpr uint32_t kDefaultBloomBitsPerKey = 10;  // about 1% FPR, see th
 inline constexpr uint32_t kDefaultShardBits = 8;
 inline constexpr uint64_t kMaxKeysPerShard = 0xFFFFFFFFull;  // u32 directory entries
 inline constexpr uint32_t kTargetKeysPerBucket = 16;  // buckets hold 16..32 keys on average
-inline constexpr uint8_t kCountEscape = 255;          // "see the exception table"
+inline constexpr uint8_t kCountEscape = 255;          // the writer's in-memory escape
+inline constexpr uint32_t kCodeHeaderBytes = 8;       // counts / doc counts: u32 width, u32 0
+/// Code widths of the counts and doc-counts sections (doc: "Counts and doc counts").
+inline bool ValidCodeWidth(uint32_t w) { return w == 0 || w == 1 || w == 2 || w == 4 || w == 8; }
 inline constexpr uint32_t kMaxCount = 0xFFFFFFFFu;    // counts saturate here
 
 /// Section order in the file and in the header's section table.

@@ -14,6 +14,7 @@
 #include <vector>
 
 #include "common/env.h"
+#include "index/format.h"
 #include "tidemark/reader.h"
 #include "tidemark/status.h"
 #include "tidemark/text_options.h"
@@ -62,7 +63,8 @@ struct ManifestSegment {
 
 class IndexManifest {
  public:
-  static constexpr int kFormatVersion = 2;
+  /// The manifest and the shard files share one format version.
+  static constexpr int kFormatVersion = static_cast<int>(index_format::kFormatVersion);
 
   int format_version = kFormatVersion;
   TextOptions text;

@@ -129,7 +129,7 @@ Result<std::unique_ptr<ShardReader>> ShardReader::Open(const std::string& path,
   const uint64_t n = r->n_;
   const uint64_t expect_bytes[fmt::kNumSections] = {
       blocks * fmt::kBloomBlockBytes, ((1ull << r->b_) + 1) * 4, ((n * r->w_ + 63) / 64) * 8 + 8,
-      n, 0, n, 0};
+      0, 0, 0, 0};  // (counts and doc counts: from their width, below)
   uint64_t pos = fmt::kHeaderBytes;
   for (int i = 0; i < fmt::kNumSections; ++i) {
     const uint8_t* e = h + fmt::off::kSections + i * fmt::off::kSectionEntryBytes;
@@ -145,7 +145,22 @@ Result<std::unique_ptr<ShardReader>> ShardReader::Open(const std::string& path,
                                             std::to_string(want_off));
     }
     const bool is_ex = i == fmt::kSecCountExceptions || i == fmt::kSecDocExceptions;
-    if (is_ex ? (sec.bytes % 8 != 0 || sec.bytes / 8 > n) : sec.bytes != expect_bytes[i]) {
+    uint64_t want_bytes = expect_bytes[i];
+    if (i == fmt::kSecCounts || i == fmt::kSecDocs) {
+      // u32 width, u32 0, then the codes. (A file too short to hold the width fails
+      // the file-end check below.)
+      uint32_t width = 0;
+      if (sec.offset + fmt::kCodeHeaderBytes <= r->file_bytes_) {
+        width = fmt::LoadLE32(r->base_ + sec.offset);
+        if (!fmt::ValidCodeWidth(width) || fmt::LoadLE32(r->base_ + sec.offset + 4) != 0) {
+          return CorruptAt(path, sec.offset, std::string(fmt::kSectionNames[i]) +
+                                                 " section: bad code width " + std::to_string(width));
+        }
+      }
+      (i == fmt::kSecCounts ? r->cw_ : r->dw_) = width;
+      want_bytes = fmt::kCodeHeaderBytes + (n * width + 7) / 8;
+    }
+    if (is_ex ? (sec.bytes % 8 != 0 || sec.bytes / 8 > n) : sec.bytes != want_bytes) {
       return CorruptAt(path, entry_off + 8,
                        std::string(fmt::kSectionNames[i]) + " section size " +
                            std::to_string(sec.bytes) + " is wrong");
@@ -161,10 +176,12 @@ Result<std::unique_ptr<ShardReader>> ShardReader::Open(const std::string& path,
   r->bloom_ = BloomFilterView(r->base_ + r->sections_[fmt::kSecBloom].offset, blocks, k, r->s_);
   r->dir_ = r->base_ + r->sections_[fmt::kSecDirectory].offset;
   r->rem_ = r->base_ + r->sections_[fmt::kSecRemainders].offset;
-  r->counts_ = r->base_ + r->sections_[fmt::kSecCounts].offset;
+  r->counts_ = r->base_ + r->sections_[fmt::kSecCounts].offset + fmt::kCodeHeaderBytes;
+  r->cmask_ = (1u << r->cw_) - 1;
+  r->dmask_ = (1u << r->dw_) - 1;
   r->count_ex_ = r->base_ + r->sections_[fmt::kSecCountExceptions].offset;
   r->count_ex_n_ = r->sections_[fmt::kSecCountExceptions].bytes / 8;
-  r->docs_ = r->base_ + r->sections_[fmt::kSecDocs].offset;
+  r->docs_ = r->base_ + r->sections_[fmt::kSecDocs].offset + fmt::kCodeHeaderBytes;
   r->doc_ex_ = r->base_ + r->sections_[fmt::kSecDocExceptions].offset;
   r->doc_ex_n_ = r->sections_[fmt::kSecDocExceptions].bytes / 8;
   r->bucket_mask_ = (1ull << r->b_) - 1;
@@ -185,18 +202,15 @@ uint64_t ShardReader::KeyAt(uint64_t i) const {
   return shard_prefix_ | (lo << w_) | RemainderAt(i);
 }
 
-uint32_t ShardReader::Decode(Which which, uint64_t i) const {
-  const uint8_t v = (which == kCounts ? counts_ : docs_)[i];
-  if (v != fmt::kCountEscape) return v;
-  const uint8_t* ex = which == kCounts ? count_ex_ : doc_ex_;
-  uint64_t lo = 0, hi = which == kCounts ? count_ex_n_ : doc_ex_n_;
+uint32_t ShardReader::Exception(const uint8_t* ex, uint64_t ex_n, uint64_t i) {
+  uint64_t lo = 0, hi = ex_n;
   while (lo < hi) {
     const uint64_t mid = (lo + hi) / 2;
     const uint32_t idx = fmt::LoadLE32(ex + mid * 8);
     if (idx == i) return fmt::LoadLE32(ex + mid * 8 + 4);
     if (idx < i) lo = mid + 1; else hi = mid;
   }
-  return fmt::kCountEscape;  // only in a damaged file; VerifyInvariants reports it
+  return 0;  // only in a damaged file; VerifyInvariants reports it
 }
 
 int64_t ShardReader::Find(uint64_t fp) const {
@@ -265,19 +279,30 @@ Status ShardReader::VerifyInvariants() const {
     if (byte == used_bits / 8) v = static_cast<uint8_t>(v >> (used_bits % 8));
     if (v != 0) return CorruptAt(path_, rem_off + byte, "nonzero bits after the last key");
   }
-  // Exception tables.
+  // Coded counts: one exception entry per escape code, in key order, each holding a
+  // value that its code could not (the writer escapes nothing else).
   struct Table {
-    const uint8_t* bytes;
+    const uint8_t* codes;
+    uint32_t width, esc;
     const uint8_t* ex;
     uint64_t ex_n;
-    int bytes_sec, ex_sec;
+    int codes_sec, ex_sec;
   };
-  const Table tables[2] = {{counts_, count_ex_, count_ex_n_, fmt::kSecCounts, fmt::kSecCountExceptions},
-                           {docs_, doc_ex_, doc_ex_n_, fmt::kSecDocs, fmt::kSecDocExceptions}};
+  const Table tables[2] = {
+      {counts_, cw_, cmask_, count_ex_, count_ex_n_, fmt::kSecCounts, fmt::kSecCountExceptions},
+      {docs_, dw_, dmask_, doc_ex_, doc_ex_n_, fmt::kSecDocs, fmt::kSecDocExceptions}};
   for (const Table& t : tables) {
-    uint64_t escapes = 0;
-    for (uint64_t i = 0; i < n_; ++i) escapes += t.bytes[i] == fmt::kCountEscape;
+    const uint64_t codes_off = sections_[t.codes_sec].offset + fmt::kCodeHeaderBytes;
     const uint64_t ex_off = sections_[t.ex_sec].offset;
+    uint64_t escapes = 0;
+    if (t.width > 0) {
+      for (uint64_t i = 0; i < n_; ++i) escapes += Code(t.codes, t.width, t.esc, i) == t.esc;
+      // Bits after the last code are zero.
+      const uint64_t code_bits = n_ * t.width;
+      if (code_bits % 8 != 0 && (t.codes[code_bits / 8] >> (code_bits % 8)) != 0) {
+        return CorruptAt(path_, codes_off + code_bits / 8, "nonzero bits after the last code");
+      }
+    }
     if (escapes != t.ex_n) {
       return CorruptAt(path_, ex_off, std::to_string(t.ex_n) + " exceptions for " +
                                           std::to_string(escapes) + " escaped values");
@@ -285,24 +310,31 @@ Status ShardReader::VerifyInvariants() const {
     int64_t prev = -1;
     for (uint64_t e = 0; e < t.ex_n; ++e) {
       const uint32_t idx = fmt::LoadLE32(t.ex + e * 8);
-      const uint32_t val = fmt::LoadLE32(t.ex + e * 8 + 4);
-      if (static_cast<int64_t>(idx) <= prev || idx >= n_ || t.bytes[idx] != fmt::kCountEscape ||
-          val < fmt::kCountEscape) {
+      if (static_cast<int64_t>(idx) <= prev || idx >= n_ || Code(t.codes, t.width, t.esc, idx) != t.esc) {
         return CorruptAt(path_, ex_off + e * 8, "bad exception entry");
       }
       prev = idx;
     }
   }
+  for (uint64_t e = 0; e < count_ex_n_; ++e) {
+    if (fmt::LoadLE32(count_ex_ + e * 8 + 4) - 1 < cmask_) {  // (a count 0 wraps: caught here too)
+      return CorruptAt(path_, sections_[fmt::kSecCountExceptions].offset + e * 8,
+                       "count exception that fits its code");
+    }
+  }
   uint64_t sum_count = 0, sum_docs = 0;
-  const uint64_t counts_off = sections_[fmt::kSecCounts].offset;
-  const uint64_t docs_off = sections_[fmt::kSecDocs].offset;
+  const uint64_t counts_off = sections_[fmt::kSecCounts].offset + fmt::kCodeHeaderBytes;
+  const uint64_t docs_off = sections_[fmt::kSecDocs].offset + fmt::kCodeHeaderBytes;
   for (uint64_t i = 0; i < n_; ++i) {
     const uint32_t c = CountAt(i);
     const uint32_t d = DocsAt(i);
-    if (c == 0) return CorruptAt(path_, counts_off + i, "count 0 for key " + std::to_string(i));
-    if (d == 0 || d > c) {
-      return CorruptAt(path_, docs_off + i, "doc count " + std::to_string(d) +
-                                                " outside 1..count (" + std::to_string(c) + ")");
+    if (c == 0) {
+      return CorruptAt(path_, counts_off + (i * cw_) / 8, "count 0 for key " + std::to_string(i));
+    }
+    if (d == 0 || d > c || (dw_ > 0 && Code(docs_, dw_, dmask_, i) == dmask_ && c - d < dmask_)) {
+      return CorruptAt(path_, docs_off + (i * dw_) / 8,
+                       "doc count " + std::to_string(d) + " outside 1..count (" +
+                           std::to_string(c) + ") or escaped needlessly");
     }
     sum_count = SatAdd64(sum_count, c);
     sum_docs = SatAdd64(sum_docs, d);

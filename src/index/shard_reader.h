@@ -39,8 +39,19 @@ class ShardReader {
 
   uint64_t size() const { return n_; }
   uint64_t KeyAt(uint64_t i) const;
-  uint32_t CountAt(uint64_t i) const { return Decode(kCounts, i); }
-  uint32_t DocsAt(uint64_t i) const { return Decode(kDocs, i); }
+  /// Occurrences of key i (docs/index_format.md "Counts and doc counts").
+  uint32_t CountAt(uint64_t i) const {
+    if (cw_ == 0) return 1;
+    const uint32_t code = Code(counts_, cw_, cmask_, i);
+    return code != cmask_ ? code + 1 : Exception(count_ex_, count_ex_n_, i);
+  }
+  /// Documents holding key i.
+  uint32_t DocsAt(uint64_t i) const {
+    const uint32_t count = CountAt(i);
+    if (dw_ == 0) return count;
+    const uint32_t code = Code(docs_, dw_, dmask_, i);
+    return code != dmask_ ? count - code : Exception(doc_ex_, doc_ex_n_, i);
+  }
 
   /// Exact lookup (no Bloom): index of fp, or -1.
   int64_t Find(uint64_t fp) const;
@@ -82,8 +93,8 @@ class ShardReader {
     return -1;
   }
   void PrefetchCounts(uint64_t i) const {
-    __builtin_prefetch(counts_ + i);
-    __builtin_prefetch(docs_ + i);
+    __builtin_prefetch(counts_ + ((i * cw_) >> 3));
+    __builtin_prefetch(docs_ + ((i * dw_) >> 3));
   }
   /// Adds key i's count and doc count to *info (saturating).
   void AddCountsAt(uint64_t i, NgramInfo* info) const;
@@ -103,10 +114,15 @@ class ShardReader {
   const SectionInfo& section(int i) const { return sections_[i]; }
 
  private:
-  enum Which { kCounts, kDocs };
   ShardReader() = default;
   uint64_t BucketOf(uint64_t fp) const { return (fp >> w_) & bucket_mask_; }
-  uint32_t Decode(Which which, uint64_t i) const;
+  // Code i of a stream of `width`-bit codes (width 1, 2, 4 or 8: never across bytes).
+  static uint32_t Code(const uint8_t* codes, uint32_t width, uint32_t mask, uint64_t i) {
+    const uint64_t bit = i * width;
+    return (codes[bit >> 3] >> (bit & 7)) & mask;
+  }
+  // The exact value of escaped key i (binary search), 0 if missing (damage).
+  static uint32_t Exception(const uint8_t* ex, uint64_t ex_n, uint64_t i);
 
   std::string path_;
   void* map_ = nullptr;
@@ -121,8 +137,10 @@ class ShardReader {
   BloomFilterView bloom_;
   const uint8_t* dir_ = nullptr;
   const uint8_t* rem_ = nullptr;
-  const uint8_t* counts_ = nullptr;
+  const uint8_t* counts_ = nullptr;  // codes (after the section's width header)
   const uint8_t* docs_ = nullptr;
+  uint32_t cw_ = 0, dw_ = 0;        // code widths
+  uint32_t cmask_ = 0, dmask_ = 0;  // escape codes, 2^width - 1
   const uint8_t* count_ex_ = nullptr;
   const uint8_t* doc_ex_ = nullptr;
   uint64_t count_ex_n_ = 0, doc_ex_n_ = 0;

@@ -56,13 +56,70 @@ inline void EncodeCount(uint64_t v, uint32_t index, std::vector<uint8_t>* bytes,
   }
 }
 
-std::string ExceptionBytes(const std::vector<std::pair<uint32_t, uint32_t>>& ex) {
-  std::string out(ex.size() * 8, '\0');
-  for (size_t i = 0; i < ex.size(); ++i) {
-    fmt::StoreLE32(out.data() + i * 8, ex[i].first);
-    fmt::StoreLE32(out.data() + i * 8 + 4, ex[i].second);
+// Walks the writer's per-key count bytes and their exception list in key order.
+class CountCursor {
+ public:
+  CountCursor(const std::vector<uint8_t>& bytes, const std::vector<std::pair<uint32_t, uint32_t>>& ex)
+      : bytes_(bytes), ex_(ex) {}
+  uint32_t Next(size_t i) {
+    const uint8_t v = bytes_[i];
+    if (v != fmt::kCountEscape) return v;
+    assert(e_ < ex_.size() && ex_[e_].first == i);
+    return ex_[e_++].second;
   }
-  return out;
+
+ private:
+  const std::vector<uint8_t>& bytes_;
+  const std::vector<std::pair<uint32_t, uint32_t>>& ex_;
+  size_t e_ = 0;
+};
+
+// One coded stream (docs/index_format.md "Counts and doc counts"): a value v >= 0 per
+// key is stored in `width` bits if v < 2^width - 1, else as the escape code 2^width - 1
+// with an exception entry holding the exact count or doc count.
+struct CodeWidth {
+  // Keys whose v is at least 1, 3, 15, 255: the exceptions of widths 1, 2, 4, 8.
+  uint64_t at_least[4] = {0, 0, 0, 0};
+  void Add(uint64_t v) {
+    at_least[0] += v >= 1;
+    at_least[1] += v >= 3;
+    at_least[2] += v >= 15;
+    at_least[3] += v >= 255;
+  }
+  // The width of the fewest bytes (the smaller on a tie); 0 only when every v is 0.
+  uint32_t Choose(uint64_t n) const {
+    if (at_least[0] == 0) return 0;
+    static constexpr uint32_t kWidths[4] = {1, 2, 4, 8};
+    uint32_t best = 8;
+    uint64_t best_bytes = ~uint64_t{0};
+    for (int j = 0; j < 4; ++j) {
+      const uint64_t bytes = (n * kWidths[j] + 7) / 8 + 8 * at_least[j];
+      if (bytes < best_bytes) {
+        best_bytes = bytes;
+        best = kWidths[j];
+      }
+    }
+    return best;
+  }
+};
+
+// Lays out a coded section: u32 width, u32 0, then the codes (key i at bit i * width,
+// LSB first), into *out (its capacity reused).
+void StartCodes(uint32_t width, uint64_t n, std::vector<uint8_t>* out) {
+  out->assign(fmt::kCodeHeaderBytes + (n * width + 7) / 8, 0);
+  fmt::StoreLE32(out->data(), width);
+}
+
+inline void PutCode(std::vector<uint8_t>* out, uint32_t width, uint64_t i, uint64_t code) {
+  const uint64_t bit = i * width;
+  (*out)[fmt::kCodeHeaderBytes + bit / 8] |= static_cast<uint8_t>(code << (bit % 8));
+}
+
+inline void PutException(std::string* ex, uint64_t i, uint32_t value) {
+  char e[8];
+  fmt::StoreLE32(e, static_cast<uint32_t>(i));
+  fmt::StoreLE32(e + 4, value);
+  ex->append(e, 8);
 }
 
 }  // namespace
@@ -75,8 +132,8 @@ void ShardWriter::UseKeys(const uint64_t* keys, size_t capacity, ShardImage* rec
   external_capacity_ = capacity;
   external_ = true;
   if (recycle != nullptr) {
-    counts_.swap(recycle->counts);
-    docs_.swap(recycle->docs);
+    counts_.swap(recycle->work_counts);
+    docs_.swap(recycle->work_docs);
   }
   counts_.resize(capacity);
   docs_.resize(capacity);
@@ -84,6 +141,7 @@ void ShardWriter::UseKeys(const uint64_t* keys, size_t capacity, ShardImage* rec
 
 void ShardWriter::AddLargeCounts(uint64_t count, uint64_t docs) {
   const uint32_t index = static_cast<uint32_t>(added_++);
+  not_single_ = true;
   if (count > fmt::kMaxCount) count = fmt::kMaxCount;
   if (docs > fmt::kMaxCount) docs = fmt::kMaxCount;
   counts_[index] = fmt::kCountEscape;
@@ -105,6 +163,7 @@ void ShardWriter::Add(uint64_t fp, uint64_t count, uint64_t docs) {
   assert(count >= 1 && docs >= 1 && docs <= count);
   const uint32_t index = static_cast<uint32_t>(keys_.size());
   keys_.push_back(fp);
+  not_single_ |= count != 1;
   EncodeCount(count, index, &counts_, &count_exceptions_);
   EncodeCount(docs, index, &docs_, &doc_exceptions_);
   total_count_ = SatAdd(total_count_, count > fmt::kMaxCount ? fmt::kMaxCount : count);
@@ -153,8 +212,45 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   // The key array is no longer needed; free it before the write buffers grow.
   std::vector<uint64_t>().swap(keys_);
 
-  std::string count_ex = ExceptionBytes(count_exceptions_);
-  std::string doc_ex = ExceptionBytes(doc_exceptions_);
+  // Counts (v = count - 1) and doc counts (v = count - docs), each at its width.
+  std::string count_ex = std::move(out->count_ex);
+  std::string doc_ex = std::move(out->doc_ex);
+  count_ex.clear();
+  doc_ex.clear();
+  std::vector<uint8_t> count_codes = std::move(out->counts);
+  std::vector<uint8_t> doc_codes = std::move(out->docs);
+  if (!not_single_) {  // every count (and so every doc count) is 1
+    StartCodes(0, n, &count_codes);
+    StartCodes(0, n, &doc_codes);
+  } else {
+    CodeWidth cw, dw;
+    {
+      CountCursor c(counts_, count_exceptions_), d(docs_, doc_exceptions_);
+      for (uint64_t i = 0; i < n; ++i) {
+        const uint32_t count = c.Next(i);
+        cw.Add(count - 1);
+        dw.Add(count - d.Next(i));
+      }
+    }
+    const uint32_t cwidth = cw.Choose(n), dwidth = dw.Choose(n);
+    StartCodes(cwidth, n, &count_codes);
+    StartCodes(dwidth, n, &doc_codes);
+    const uint64_t cesc = (uint64_t{1} << cwidth) - 1, desc = (uint64_t{1} << dwidth) - 1;
+    CountCursor c(counts_, count_exceptions_), d(docs_, doc_exceptions_);
+    for (uint64_t i = 0; i < n; ++i) {
+      const uint32_t count = c.Next(i);
+      const uint32_t docs = d.Next(i);
+      const uint64_t vc = count - 1, vd = count - docs;
+      if (cwidth > 0) {
+        PutCode(&count_codes, cwidth, i, vc < cesc ? vc : cesc);
+        if (vc >= cesc) PutException(&count_ex, i, count);
+      }
+      if (dwidth > 0) {
+        PutCode(&doc_codes, dwidth, i, vd < desc ? vd : desc);
+        if (vd >= desc) PutException(&doc_ex, i, docs);
+      }
+    }
+  }
 
   struct Piece {
     const char* data;
@@ -165,9 +261,9 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
       {reinterpret_cast<const char*>(bloom.bytes().data()), bloom.bytes().size(), 64},
       {dir.data(), dir.size(), 8},
       {rem.data(), rem.size(), 8},
-      {reinterpret_cast<const char*>(counts_.data()), counts_.size(), 8},
+      {reinterpret_cast<const char*>(count_codes.data()), count_codes.size(), 8},
       {count_ex.data(), count_ex.size(), 8},
-      {reinterpret_cast<const char*>(docs_.data()), docs_.size(), 8},
+      {reinterpret_cast<const char*>(doc_codes.data()), doc_codes.size(), 8},
       {doc_ex.data(), doc_ex.size(), 8},
   }};
 
@@ -207,9 +303,11 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   out->bloom = bloom.TakeBytes();
   out->dir = std::move(dir);
   out->rem = std::move(rem);
-  out->counts = std::move(counts_);
+  out->counts = std::move(count_codes);
   out->count_ex = std::move(count_ex);
-  out->docs = std::move(docs_);
+  out->docs = std::move(doc_codes);
+  out->work_counts = std::move(counts_);
+  out->work_docs = std::move(docs_);
   out->doc_ex = std::move(doc_ex);
   ShardFileInfo& info = out->info;
   info.shard_id = params_.shard_id;

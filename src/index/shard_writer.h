@@ -54,6 +54,8 @@ struct ShardImage {
   std::string header;
   std::vector<uint8_t> bloom, counts, docs;
   std::string dir, rem, count_ex, doc_ex;
+  /// Not written: the writer's per-key count bytes, kept for reuse with the image.
+  std::vector<uint8_t> work_counts, work_docs;
   std::array<uint64_t, 7> offsets{};  ///< of each section (docs/index_format.md order)
   ShardFileInfo info;
   std::string_view Section(int i) const;
@@ -87,6 +89,7 @@ class ShardWriter {
       counts_[added_] = static_cast<uint8_t>(count);
       docs_[added_] = static_cast<uint8_t>(docs);
       ++added_;
+      not_single_ |= count != 1;  // (docs <= count)
       total_count_ += count;  // no wrap: at most 2^32-1 keys of at most 2^32-1 each
       total_docs_ += docs;
       return;
@@ -124,8 +127,11 @@ class ShardWriter {
   size_t external_capacity_ = 0;
   size_t added_ = 0;  // AddCounts calls (counts_/docs_ are pre-sized in bulk mode)
   bool external_ = false;
+  // Per key: count and doc count if below kCountEscape, else kCountEscape and an entry
+  // in the exception list. BuildImage encodes them (docs/index_format.md "Counts").
   std::vector<uint8_t> counts_;
   std::vector<uint8_t> docs_;
+  bool not_single_ = false;  // some key has a count other than 1
   std::vector<std::pair<uint32_t, uint32_t>> count_exceptions_;
   std::vector<std::pair<uint32_t, uint32_t>> doc_exceptions_;
   uint64_t total_count_ = 0;

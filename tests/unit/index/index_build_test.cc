@@ -266,7 +266,7 @@ TEST_CASE("manifest records parameters and round-trips", "[index][manifest]") {
   bad.replace(bad.find("\"shard_bits\""), 12, "\"shard_bitz\"");
   CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kCorruption);
   bad = json;
-  bad.replace(bad.find("\"format_version\": 2"), 19, "\"format_version\": 1");
+  bad.replace(bad.find("\"format_version\": 3"), 19, "\"format_version\": 2");
   CHECK(IndexManifest::Parse(bad, "x").status().code() == StatusCode::kUnsupported);
   // So is an index built under other text rules (version 1 fingerprinted n-grams with
   // XXH3): it must be rebuilt, never probed with fingerprints that mean something else.

@@ -118,7 +118,7 @@ TEST_CASE("shard header fields follow docs/index_format.md", "[index][shard]") {
   const std::string f = testing::ReadFile(path);
   REQUIRE(f.size() > 256);
   CHECK(f.substr(0, 8) == std::string("\x89TMS\r\n\x1a\n", 8));
-  CHECK(fmt::LoadLE32(f.data() + 8) == 2);
+  CHECK(fmt::LoadLE32(f.data() + 8) == 3);
   CHECK(fmt::LoadLE32(f.data() + 12) == 256);
   CHECK(fmt::LoadLE32(f.data() + 16) == 8);
   CHECK(fmt::LoadLE32(f.data() + 20) == 17);
@@ -141,6 +141,72 @@ TEST_CASE("shard header fields follow docs/index_format.md", "[index][shard]") {
     pos = off + bytes;
   }
   CHECK(pos == f.size());
+}
+
+// The counts and doc-counts sections take the code width of the fewest bytes
+// (docs/index_format.md "Counts and doc counts"): bytes(w) = ceil(N w / 8) + 8 E(w),
+// E(w) = the keys whose value (count - 1, or count - docs) is at least 2^w - 1.
+TEST_CASE("counts take the narrowest code width, values round-trip", "[index][shard]") {
+  const std::string dir = testing::ScratchDir("shard_codes");
+  struct Case {
+    const char* what;
+    uint32_t (*count)(uint64_t i);
+    uint32_t (*docs)(uint64_t i, uint32_t count);
+    uint32_t want_cw, want_dw;
+  };
+  // N = 4000 keys. "All ones": width 0 for both, no codes at all.
+  // "Ones and twos": counts 1 (1920 keys), 2 (2000) and 1000 (80), so v = count - 1 is
+  // 0, 1 or 999: bytes(1) = 500 + 8 * 2080, bytes(2) = 1000 + 8 * 80 = 1640,
+  // bytes(4) = 2000 + 640, bytes(8) = 4000 + 640 -> 2. Docs = count, except the 80
+  // large ones (docs 1: v = 999) and the 286 odd multiples of 7 (count 2, docs 1: v = 1):
+  // bytes(1) = 500 + 8 * 366 = 3428, bytes(2) = 1000 + 640 = 1640 -> 2.
+  // "All 300": every count escapes at every width, so the narrowest wins: 1; docs 0.
+  const Case cases[] = {
+      {"all ones", [](uint64_t) { return 1u; }, [](uint64_t, uint32_t c) { return c; }, 0, 0},
+      {"ones and twos, a few large",
+       [](uint64_t i) -> uint32_t { return i % 50 == 0 ? 1000 : 1 + static_cast<uint32_t>(i % 2); },
+       [](uint64_t i, uint32_t c) -> uint32_t { return c == 1000 ? 1 : (i % 7 == 0 ? c - (c > 1) : c); },
+       2, 2},
+      {"all 300", [](uint64_t) { return 300u; }, [](uint64_t, uint32_t c) { return c; }, 1, 0},
+  };
+  for (const Case& c : cases) {
+    INFO(c.what);
+    ShardParams p;
+    p.shard_bits = 8;
+    p.shard_id = 5;
+    p.params_hash = 9;
+    const std::string path = dir + "/codes.tms";
+    ShardWriter w(p);
+    testing::SplitMix64 rng(3);
+    std::set<uint64_t> keys;
+    while (keys.size() < 4000) keys.insert((rng.Next() >> 8) | (uint64_t{5} << 56));
+    uint64_t i = 0;
+    std::vector<std::pair<uint32_t, uint32_t>> want;
+    for (const uint64_t fp : keys) {
+      const uint32_t count = c.count(i);
+      const uint32_t docs = c.docs(i, count);
+      want.emplace_back(count, docs);
+      w.Add(fp, count, docs);
+      ++i;
+    }
+    ShardFileInfo info;
+    REQUIRE(w.Finish(path, Env::Default(), &info).ok());
+    auto r = ShardReader::Open(path, p);
+    REQUIRE(r.ok());
+    const ShardReader& sr = **r;
+    CHECK(sr.VerifyInvariants().ok());
+    const std::string f = testing::ReadFile(path);
+    const auto& cs = sr.section(fmt::kSecCounts);
+    const auto& ds = sr.section(fmt::kSecDocs);
+    CHECK(fmt::LoadLE32(f.data() + cs.offset) == c.want_cw);
+    CHECK(fmt::LoadLE32(f.data() + ds.offset) == c.want_dw);
+    CHECK(cs.bytes == 8 + (4000 * c.want_cw + 7) / 8);
+    CHECK(ds.bytes == 8 + (4000 * c.want_dw + 7) / 8);
+    for (uint64_t k = 0; k < want.size(); ++k) {
+      REQUIRE(sr.CountAt(k) == want[k].first);
+      REQUIRE(sr.DocsAt(k) == want[k].second);
+    }
+  }
 }
 
 TEST_CASE("shard opened with other parameters is refused", "[index][shard]") {
