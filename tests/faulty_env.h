@@ -1,5 +1,6 @@
 // An Env for fault-injection tests: writes fail once `budget` bytes have gone out
-// (disk full), and renames onto a path ending in `fail_rename` fail.
+// (disk full), renames onto a path ending in `fail_rename` fail, and with
+// `fail_syncfs` so does making a filesystem durable (an I/O error at the final flush).
 #ifndef TIDEMARK_TESTS_FAULTY_ENV_H_
 #define TIDEMARK_TESTS_FAULTY_ENV_H_
 
@@ -16,6 +17,8 @@ class FaultyEnv : public Env {
  public:
   uint64_t budget = ~uint64_t{0};
   std::string fail_rename;  // a suffix of the rename target; empty: none fail
+  bool fail_syncfs = false;
+  int syncfs_calls = 0;
 
   Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
                                                         FileOptions options) override {
@@ -28,6 +31,11 @@ class FaultyEnv : public Env {
       return Status::IOError("rename " + from + ": injected failure");
     }
     return Env::Rename(from, to);
+  }
+  Status SyncFilesystem(const std::string& path) override {
+    ++syncfs_calls;
+    if (fail_syncfs) return Status::IOError(path + ": syncfs: Input/output error (injected)");
+    return Env::SyncFilesystem(path);
   }
 
  private:

@@ -50,6 +50,14 @@ class PosixWritableFile final : public WritableFile {
     if (::fdatasync(fd_) != 0) return PosixError(path_ + ": fsync", errno);
     return Status::Ok();
   }
+  Status StartWriteback() override {
+#ifdef SYNC_FILE_RANGE_WRITE
+    if (::sync_file_range(fd_, 0, 0, SYNC_FILE_RANGE_WRITE) != 0 && errno != ENOSYS) {
+      return PosixError(path_ + ": sync_file_range", errno);
+    }
+#endif
+    return Status::Ok();
+  }
   Status Close() override {
     if (fd_ < 0) return Status::Ok();
     const int rc = ::close(fd_);
@@ -315,6 +323,16 @@ Status Env::SyncDir(const std::string& path) {
   const int err = errno;
   ::close(fd);
   if (rc != 0) return PosixError(path + ": fsync directory", err);
+  return Status::Ok();
+}
+
+Status Env::SyncFilesystem(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) return PosixError(path + ": open", errno);
+  const int rc = ::syncfs(fd);
+  const int err = errno;
+  ::close(fd);
+  if (rc != 0) return PosixError(path + ": syncfs", err);
   return Status::Ok();
 }
 

@@ -13,9 +13,14 @@
 #ifndef TIDEMARK_SRC_INDEX_BLOOM_FILTER_H_
 #define TIDEMARK_SRC_INDEX_BLOOM_FILTER_H_
 
+#include <cstddef>
 #include <cstdint>
 #include <span>
+#include <utility>
 #include <vector>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 
 #include "index/format.h"
 
@@ -75,6 +80,11 @@ class BloomFilterBuilder {
   void Add(uint64_t fp);
   /// Adds every key; fastest when they are ascending (any order is correct).
   void AddAll(std::span<const uint64_t> keys);
+  /// AddAll that also calls visit(i, keys[i]) for every key in order, so that a
+  /// caller's own pass over the keys shares this one (ShardWriter lays out the
+  /// directory and the remainders this way).
+  template <typename Visit>
+  void AddAllVisiting(std::span<const uint64_t> keys, Visit&& visit);
   const std::vector<uint8_t>& bytes() const { return bytes_; }
   /// Moves the blocks out (the builder is empty afterwards).
   std::vector<uint8_t> TakeBytes() { return std::move(bytes_); }
@@ -90,6 +100,91 @@ class BloomFilterBuilder {
   uint32_t shard_bits_;
   std::vector<uint8_t> bytes_;
 };
+
+namespace bloom_detail {
+
+// ORs the positions marked in map (byte j == 0x80: bit j is set) into block, and
+// clears the map. Bit j of a block is bit j mod 64 of little-endian word j / 64, which
+// is what the byte sign bits give, 16 at a time, in order.
+inline void FoldMap(uint8_t* map, uint8_t* block) {
+  for (int j = 0; j < 8; ++j) {
+    uint8_t* m = map + 64 * j;
+    uint64_t bits = 0;
+#ifdef __SSE2__
+    for (int q = 0; q < 4; ++q) {
+      const __m128i v = _mm_load_si128(reinterpret_cast<const __m128i*>(m + 16 * q));
+      bits |= static_cast<uint64_t>(static_cast<uint32_t>(_mm_movemask_epi8(v))) << (16 * q);
+      _mm_store_si128(reinterpret_cast<__m128i*>(m + 16 * q), _mm_setzero_si128());
+    }
+#else
+    for (int q = 0; q < 64; ++q) {
+      bits |= static_cast<uint64_t>(m[q] >> 7) << q;
+      m[q] = 0;
+    }
+#endif
+    if (bits != 0) {
+      index_format::StoreLE64(block + 8 * j, index_format::LoadLE64(block + 8 * j) | bits);
+    }
+  }
+}
+
+// Marks the k positions of a key with mixed hash h in map. A compile-time k unrolls
+// the loop; positions past the 7th come from further words of the stream.
+template <uint32_t kK>
+inline void MarkPositions(uint64_t h, uint8_t* map) {
+  uint64_t w = h;
+  for (uint32_t i = 0; i < kK; ++i) {
+    if (i > 0 && i % 7 == 0) w = index_format::BloomWord(h, i / 7);
+    map[w & 511] = 0x80;
+    w >>= 9;
+  }
+}
+
+template <uint32_t kK, typename Visit>
+void AddAllK(std::span<const uint64_t> keys, uint32_t shard_bits, uint64_t num_blocks,
+             uint8_t* blocks, Visit& visit) {
+  // Ascending keys visit each block in one stretch. A stretch's bit positions are
+  // marked as bytes of a 512-byte map (plain stores, no read-modify-write) that is
+  // folded into its block later. ORing each position into a 64-bit word of a mask
+  // instead chains every update through the last one to the same word
+  // (store-to-load forwarding) and measured about twice as slow per key. Two maps take
+  // turns: a map is folded one stretch after it was filled, so the 16-byte loads of the
+  // fold no longer wait for the byte stores just made to it.
+  alignas(64) uint8_t maps[2][index_format::kBloomBlockBits] = {};
+  constexpr uint64_t kNone = ~uint64_t{0};
+  uint64_t cur = kNone, prev = kNone;
+  int m = 0;
+  for (size_t i = 0; i < keys.size(); ++i) {
+    const uint64_t fp = keys[i];
+    const uint64_t b = BloomFilterView::BlockIndex(fp, shard_bits, num_blocks);
+    if (b != cur) {
+      if (prev != kNone) FoldMap(maps[m ^ 1], blocks + prev * index_format::kBloomBlockBytes);
+      prev = cur;
+      cur = b;
+      m ^= 1;
+    }
+    MarkPositions<kK>(index_format::Mix64(fp), maps[m]);
+    visit(i, fp);
+  }
+  if (prev != kNone) FoldMap(maps[m ^ 1], blocks + prev * index_format::kBloomBlockBytes);
+  if (cur != kNone) FoldMap(maps[m], blocks + cur * index_format::kBloomBlockBytes);
+}
+
+template <typename Visit, uint32_t... kKs>
+void DispatchAddAll(uint32_t k, std::span<const uint64_t> keys, uint32_t shard_bits,
+                    uint64_t num_blocks, uint8_t* blocks, Visit& visit,
+                    std::integer_sequence<uint32_t, kKs...>) {
+  ((k == kKs + 1 ? AddAllK<kKs + 1>(keys, shard_bits, num_blocks, blocks, visit) : void()), ...);
+}
+
+}  // namespace bloom_detail
+
+template <typename Visit>
+void BloomFilterBuilder::AddAllVisiting(std::span<const uint64_t> keys, Visit&& visit) {
+  static_assert(kMaxK == 16);
+  bloom_detail::DispatchAddAll(k_, keys, shard_bits_, num_blocks_, bytes_.data(), visit,
+                               std::make_integer_sequence<uint32_t, kMaxK>());
+}
 
 /// Expected false-positive rate of a 512-bit blocked filter with k bits per key
 /// at `bits_per_key` (Putze, Sanders, Singler 2007): sum over the Poisson-distributed

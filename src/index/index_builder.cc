@@ -629,6 +629,8 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
     seg->ngrams_distinct += sh.keys;
     seg->bytes += sh.bytes;
   }
+  // The shard files were closed without an fsync each (BackgroundShardWriter).
+  TM_RETURN_IF_ERROR(env->SyncFilesystem(staging));
   return env->SyncDir(staging);
 }
 

@@ -35,7 +35,7 @@ constexpr uint64_t kInMemoryBytesPerKey = 26;
 // sort scratch / distinct keys 8 + counts 2 + Bloom ~1.25 + remainders ~5 + directory.
 constexpr uint64_t kRunMergeBytesPerRecord = 34;
 // Shard images queued for (or in) the background write, and their bytes per key.
-constexpr uint64_t kPendingImages = 3;
+constexpr uint64_t kPendingImages = 4;
 constexpr uint64_t kImageBytesPerKey = 9;
 
 // Keys per staging line (one 64-byte cache line).
@@ -379,6 +379,8 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     (void)env_->RemoveTree(run_dir_);
     run_dir_made_ = false;
   }
+  // The shard files were closed without an fsync each (BackgroundShardWriter).
+  TM_RETURN_IF_ERROR(env_->SyncFilesystem(staging_dir));
   return env_->SyncDir(staging_dir);
 }
 

@@ -20,31 +20,6 @@ uint64_t SatAdd(uint64_t a, uint64_t b) {
   return s < a ? ~uint64_t{0} : s;
 }
 
-// Bit-packs the low `w` bits of every key into little-endian 64-bit words (key i at
-// bit i*w of the stream), followed by 8 zero bytes, into *out (its capacity reused).
-void PackRemainders(std::span<const uint64_t> keys, uint32_t w, std::string* out) {
-  const uint64_t mask = w == 64 ? ~0ull : (1ull << w) - 1;
-  const uint64_t words = (keys.size() * w + 63) / 64;
-  out->assign(words * 8 + 8, '\0');
-  char* p = out->data();
-  uint64_t acc = 0;
-  uint32_t fill = 0;
-  for (const uint64_t k : keys) {
-    const uint64_t r = k & mask;
-    acc |= r << fill;
-    const uint32_t used = 64 - fill;
-    if (w >= used) {
-      fmt::StoreLE64(p, acc);
-      p += 8;
-      acc = used == 64 ? 0 : (r >> used);
-      fill = w - used;
-    } else {
-      fill += w;
-    }
-  }
-  if (fill > 0) fmt::StoreLE64(p, acc);
-}
-
 inline void EncodeCount(uint64_t v, uint32_t index, std::vector<uint8_t>* bytes,
                  std::vector<std::pair<uint32_t, uint32_t>>* exceptions) {
   if (v > fmt::kMaxCount) v = fmt::kMaxCount;
@@ -189,26 +164,42 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   assert(w >= 1 && w <= fmt::kMaxRemainderBits);
   const uint64_t num_buckets = 1ull << b;
 
-  // Bloom filter.
-  // Ascending keys fill the blocks front to back.
-  // The sections go into *out's buffers, whose capacity a recycled image brings along.
+  // One pass over the keys lays out the Bloom filter (ascending keys fill its blocks
+  // front to back), the directory (dir[j] = first key of bucket j) and the bit-packed
+  // remainders (the low w bits of key i at bit i*w of little-endian 64-bit words, then
+  // 8 zero bytes). The sections go into *out's buffers, whose capacity a recycled
+  // image brings along.
   BloomFilterBuilder bloom(n, params_.bloom_bits_per_key, s, std::move(out->bloom));
-  bloom.AddAll(keys);
-
-  // Directory: dir[j] = first key of bucket j.
   std::string dir = std::move(out->dir);
   dir.assign((num_buckets + 1) * 4, '\0');
-  {
-    uint64_t i = 0;
-    for (uint64_t j = 0; j <= num_buckets; ++j) {
-      while (i < n && ((keys[i] >> w) & (num_buckets - 1)) < j) ++i;
-      fmt::StoreLE32(dir.data() + j * 4, static_cast<uint32_t>(j == num_buckets ? n : i));
-    }
-  }
-
-  // Remainders, bit-packed; + 8 zero bytes.
   std::string rem = std::move(out->rem);
-  PackRemainders(keys, w, &rem);
+  rem.assign((n * w + 63) / 64 * 8 + 8, '\0');
+  {
+    char* const d = dir.data();
+    uint64_t next_bucket = 0;
+    const uint64_t bucket_mask = num_buckets - 1;
+    const uint64_t rem_mask = (uint64_t{1} << w) - 1;  // w <= kMaxRemainderBits < 64
+    char* p = rem.data();
+    uint64_t acc = 0;
+    uint32_t fill = 0;
+    bloom.AddAllVisiting(keys, [&](size_t i, uint64_t key) {
+      const uint64_t j = (key >> w) & bucket_mask;
+      while (next_bucket <= j) fmt::StoreLE32(d + 4 * next_bucket++, static_cast<uint32_t>(i));
+      const uint64_t r = key & rem_mask;
+      acc |= r << fill;
+      const uint32_t room = 64 - fill;
+      if (w >= room) {
+        fmt::StoreLE64(p, acc);
+        p += 8;
+        acc = room == 64 ? 0 : (r >> room);
+        fill = w - room;
+      } else {
+        fill += w;
+      }
+    });
+    while (next_bucket <= num_buckets) fmt::StoreLE32(d + 4 * next_bucket++, static_cast<uint32_t>(n));
+    if (fill > 0) fmt::StoreLE64(p, acc);
+  }
   // The key array is no longer needed; free it before the write buffers grow.
   std::vector<uint64_t>().swap(keys_);
 
@@ -351,7 +342,8 @@ Status SubmitShard(ShardWriter* writer, uint32_t shard, const std::string& stagi
   return Status::Ok();
 }
 
-Status WriteShardImage(const ShardImage& image, const std::string& path, Env* env, bool direct) {
+Status WriteShardImage(const ShardImage& image, const std::string& path, Env* env, bool direct,
+                       bool sync) {
   TM_ASSIGN_OR_RETURN(std::unique_ptr<WritableFile> file, env->NewWritableFile(path, FileOptions{direct}));
   TM_RETURN_IF_ERROR(file->Append(image.header));
   static const char kZeros[64] = {};
@@ -364,7 +356,7 @@ Status WriteShardImage(const ShardImage& image, const std::string& path, Env* en
     if (!sec.empty()) TM_RETURN_IF_ERROR(file->Append(sec));
     pos = image.offsets[i] + sec.size();
   }
-  TM_RETURN_IF_ERROR(file->Sync());
+  TM_RETURN_IF_ERROR(sync ? file->Sync() : file->StartWriteback());
   return file->Close();
 }
 

@@ -298,6 +298,21 @@ TEST_CASE("disk full or a failed rename leaves no index", "[index][faults]") {
     CHECK(Index::Open(dir).status().code() == StatusCode::kNotFound);
     for (const auto& name : testing::ListTree(dir)) CHECK(name == "LOCK");
   }
+  // The shard files are made durable by one filesystem flush, not an fsync each: when
+  // that flush fails, nothing is published either.
+  {
+    const std::string sdir = testing::ScratchDir("syncfsfail") + "/idx";
+    FaultyEnv env;
+    env.fail_syncfs = true;
+    IndexBuildOptions o = SmallOptions();
+    o.env = &env;
+    IndexBuildStats st;
+    const Status s = BuildIndexFromDocuments(sdir, docs, o, false, &st);
+    CHECK(s.code() == StatusCode::kIOError);
+    CHECK(env.syncfs_calls == 1);
+    CHECK(Index::Open(sdir).status().code() == StatusCode::kNotFound);
+    for (const auto& name : testing::ListTree(sdir)) CHECK(name == "LOCK");
+  }
   const std::string dir = testing::ScratchDir("renamefail") + "/idx";
   FaultyEnv env;
   env.fail_rename = "/manifest.json";
