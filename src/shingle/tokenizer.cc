@@ -156,33 +156,61 @@ template <bool kWithText, bool kAsciiFastPath>
     if (kind == kWordByte) {
       if (in_token && ideograph) emit();
 #ifdef __SSE2__
-      if (!in_token && i + 16 <= n) {
-        // The common case: words of at most 15 bytes, each ending at an ASCII
-        // separator, hashed straight from a register-sized lower-cased copy, one after
-        // the other while they last.
+      if (!in_token && i + 32 <= n) {
+        // The common case: ASCII words ending at an ASCII separator. A 32-byte window
+        // is lower-cased and classified once; every word that ends inside it is hashed
+        // straight from the lower-cased copy (English text has about five to a window),
+        // then the window moves to the first word that does not end inside it.
         bool general = false;
+        bool reload;
         do {
-          const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(s + i));
-          uint32_t word_mask;
-          alignas(16) char lowered[32];  // 16 used; the rest quiets -Warray-bounds in XXH3
-          _mm_store_si128(reinterpret_cast<__m128i*>(lowered), LowerAsciiWordBytes(v, &word_mask));
-          const auto high_mask = static_cast<uint32_t>(_mm_movemask_epi8(v));
-          const auto k = static_cast<uint32_t>(__builtin_ctz(~word_mask));  // word length
-          if (k == 16 || ((high_mask >> k) & 1) != 0) {
-            general = true;  // a long word, or one that runs into a non-ASCII character
-            break;
+          const __m128i v0 = _mm_loadu_si128(reinterpret_cast<const __m128i*>(s + i));
+          const __m128i v1 = _mm_loadu_si128(reinterpret_cast<const __m128i*>(s + i + 16));
+          uint32_t wm0, wm1;
+          alignas(16) char lowered[48];  // 32 used; the rest quiets -Warray-bounds in XXH3
+          _mm_store_si128(reinterpret_cast<__m128i*>(lowered), LowerAsciiWordBytes(v0, &wm0));
+          _mm_store_si128(reinterpret_cast<__m128i*>(lowered + 16), LowerAsciiWordBytes(v1, &wm1));
+          const uint32_t word_mask = wm0 | (wm1 << 16);
+          const uint32_t high_mask = static_cast<uint32_t>(_mm_movemask_epi8(v0)) |
+                                     (static_cast<uint32_t>(_mm_movemask_epi8(v1)) << 16);
+          uint32_t pos = 0;  // a word starts here (s[i] is a word byte)
+          reload = false;
+          while (true) {
+            const uint32_t after = ~word_mask >> pos;  // bit 0 clear: pos is in the word
+            if (after == 0) {
+              // The word runs to the end of the window: move the window to it, unless
+              // it began the window (32 bytes or longer: the general path).
+              if (pos == 0) {
+                general = true;
+              } else {
+                i += pos;
+                reload = true;
+              }
+              break;
+            }
+            const auto k = static_cast<uint32_t>(__builtin_ctz(after));  // word length
+            const uint32_t end = pos + k;
+            if ((high_mask >> end) & 1) {
+              i += pos;  // it runs into a non-ASCII character: the general path
+              general = true;
+              break;
+            }
+            push(static_cast<uint32_t>(i + pos), static_cast<uint32_t>(i + end), lowered + pos, k);
+            // The separators after it: skip to the next word or non-ASCII byte.
+            // (end <= 31, and 2u << 31 wraps to 0: nothing above bit 31.)
+            const uint32_t next = (word_mask | high_mask) & ~((2u << end) - 1);
+            if (next == 0) {
+              i += 32;
+              break;
+            }
+            const auto c = static_cast<uint32_t>(__builtin_ctz(next));
+            if ((high_mask >> c) & 1) {
+              i += c;
+              break;
+            }
+            pos = c;
           }
-          push(static_cast<uint32_t>(i), static_cast<uint32_t>(i + k), lowered, k);
-          // The separators after it: skip to the next word or non-ASCII byte.
-          const uint32_t next = (word_mask | high_mask) & ~((2u << k) - 1);
-          if (next == 0) {
-            i += 16;
-            break;
-          }
-          const auto c = static_cast<uint32_t>(__builtin_ctz(next));
-          i += c;
-          if ((high_mask >> c) & 1) break;
-        } while (i + 16 <= n);
+        } while (reload && i + 32 <= n);
         if (!general) continue;
       }
 #endif

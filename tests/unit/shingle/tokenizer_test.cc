@@ -122,6 +122,26 @@ TEST_CASE("ASCII fast path is byte-identical to the full path", "[shingle][token
       CheckFastPathIdentical(s, o);
     }
   }
+  // Text shaped like prose, long enough for the 32-byte windows of the fast path:
+  // words of 1 to 40 letters and digits (so some end exactly at a window's end, some
+  // run past it, some fill a whole window), one to three separators between them, and
+  // now and then a non-ASCII piece right after a word or between words.
+  o.strip_accents = false;
+  const std::string alnum = "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789";
+  const std::string seps = " .,;-\n\t'\"()";
+  for (int iter = 0; iter < 4000; ++iter) {
+    std::string s;
+    const size_t words = 1 + rng() % 60;
+    for (size_t w = 0; w < words; ++w) {
+      const size_t wl = 1 + (rng() % 8 == 0 ? rng() % 40 : rng() % 9);
+      for (size_t j = 0; j < wl; ++j) s += alnum[rng() % alnum.size()];
+      if (rng() % 16 == 0) s += pool[8 + rng() % (pool.size() - 8)];  // non-ASCII
+      const size_t sl = rng() % 3 == 0 ? 0 : 1 + rng() % 3;
+      for (size_t j = 0; j < sl; ++j) s += seps[rng() % seps.size()];
+      if (sl == 0) s += ' ';
+    }
+    CheckFastPathIdentical(s, o);
+  }
 }
 
 TEST_CASE("Ideograph fast path set is stable under the rules", "[shingle][tokenize]") {
