@@ -10,8 +10,8 @@
 //   * Optional accent stripping (TextOptions::strip_accents) removes nonspacing marks
 //     after canonical decomposition.
 //   * Every token keeps the byte range [begin, end) of the ORIGINAL text it came from.
-//   * Token hash = XXH3-64(normalized token UTF-8, seed); n-gram fingerprint =
-//     XXH3-64 over the n token hashes as little-endian uint64, seed.
+//   * Token hash = XXH3-64(normalized token UTF-8, seed); n-gram fingerprint = the
+//     MurmurHash3 finalizer of a polynomial of the n token hashes mod 2^64, seed.
 //
 // Thread safety: a Tokenizer keeps scratch buffers; use one per thread. The free
 // functions are pure.
@@ -52,6 +52,11 @@ class Tokenizer {
   void TokenizeWithText(std::string_view text, std::vector<Token>* tokens,
                         std::vector<std::string>* normalized);
 
+  /// The token hashes of `text` alone (what an index build needs: no spans), in a
+  /// buffer of the tokenizer's, valid until its next call. The caller may overwrite
+  /// them (FingerprintsInPlace). REQUIRES: text.size() < 4 GiB.
+  std::span<uint64_t> TokenizeHashes(std::string_view text);
+
   /// Invalid UTF-8 bytes replaced by U+FFFD since construction.
   uint64_t invalid_utf8_bytes() const;
 
@@ -74,6 +79,11 @@ uint64_t FingerprintNgram(const uint64_t* hashes, int n, uint64_t seed);
 /// tokens[i .. i+n). Empty when tokens.size() < n.
 void ComputeFingerprints(std::span<const Token> tokens, const TextOptions& options,
                          std::vector<uint64_t>* out);
+
+/// Overwrites hashes[i] with the fingerprint of the n-gram of hashes[i .. i+n) for every
+/// i, and returns how many there are (0 when hashes.size() < n): the same values as
+/// ComputeFingerprints, without a second buffer.
+size_t FingerprintsInPlace(std::span<uint64_t> hashes, const TextOptions& options);
 
 /// Normalizes a whole string with the text rules (no tokenization): NFKC_Casefold,
 /// plus accent stripping if asked. For tests and display.

@@ -347,15 +347,14 @@ class CorpusFeeder {
   Status Work(int w, SegmentBuilder* builder, SkipStats* skips, uint64_t* records) {
     BlockParser parser(options_.read);
     Tokenizer tokenizer(options_.text);
-    std::vector<Token> tokens;
-    std::vector<uint64_t> fps;
     LineBlock block;
     Record rec;
     auto add_record = [&](const Record& r) -> Status {
-      tokenizer.Tokenize(r.text, &tokens);
-      ComputeFingerprints(tokens, options_.text, &fps);
+      // Token hashes only, turned into fingerprints where they lie.
+      const std::span<uint64_t> h = tokenizer.TokenizeHashes(r.text);
+      const size_t count = FingerprintsInPlace(h, options_.text);
       ++*records;
-      return builder->AddDocument(w, &fps);
+      return builder->AddDocument(w, h.first(count));
     };
     Status st;
     while (true) {
@@ -757,10 +756,8 @@ Status BuildIndexFromDocuments(const std::string& dir,
                       [&](const tbb::blocked_range<size_t>& r) {
                         if (errors.failed()) return;
                         const int w = tbb::this_task_arena::current_thread_index();
-                        std::vector<uint64_t> fps;
                         for (size_t i = r.begin(); i < r.end(); ++i) {
-                          fps = documents[i];
-                          Status st = b->AddDocument(w, &fps);
+                          Status st = b->AddDocument(w, documents[i]);
                           if (!st.ok()) return errors.Set(st);
                         }
                       });

@@ -155,9 +155,8 @@ uint64_t SegmentBuilder::ngrams_total() const {
   return t;
 }
 
-Status SegmentBuilder::AddDocument(int worker, std::vector<uint64_t>* fps) {
+Status SegmentBuilder::AddDocument(int worker, std::span<const uint64_t> v) {
   Worker& w = workers_[static_cast<size_t>(worker)];
-  const std::vector<uint64_t>& v = *fps;
   w.ngrams += v.size();
   DocSet& d = w.doc;
   size_t cap = 64;

@@ -64,7 +64,7 @@ class SegmentBuilder {
   ~SegmentBuilder();
 
   /// Adds one document (its fingerprints in any order). REQUIRES: 0 <= worker < workers.
-  Status AddDocument(int worker, std::vector<uint64_t>* fps);
+  Status AddDocument(int worker, std::span<const uint64_t> fps);
 
   /// Merges everything into `staging_dir`/shard-NNNNN.tms (with `threads` threads)
   /// and fills seg->shards, ngrams_total, ngrams_distinct, bytes.

@@ -40,4 +40,26 @@ void ComputeFingerprints(std::span<const Token> tokens, const TextOptions& optio
   }
 }
 
+size_t FingerprintsInPlace(std::span<uint64_t> hashes, const TextOptions& options) {
+  const size_t n = static_cast<size_t>(options.ngram);
+  assert(options.ngram >= TextOptions::kMinNgram && options.ngram <= TextOptions::kMaxNgram);
+  if (hashes.size() < n) return 0;
+  const size_t count = hashes.size() - n + 1;
+  uint64_t* const h = hashes.data();
+  const uint64_t seed = options.seed;
+  constexpr uint64_t kB = shingle::kNgramBase;
+  uint64_t top = 1;  // B^(n-1)
+  for (size_t j = 1; j < n; ++j) top *= kB;
+  uint64_t p = 0;
+  for (size_t j = 0; j < n; ++j) p = p * kB + h[j];
+  // Fingerprint i goes over hash i, which is read (to roll it out) just before.
+  for (size_t i = 0; i + 1 < count; ++i) {
+    const uint64_t out = h[i];
+    h[i] = shingle::FinalizeNgram(p, seed);
+    p = (p - out * top) * kB + h[i + n];
+  }
+  h[count - 1] = shingle::FinalizeNgram(p, seed);
+  return count;
+}
+
 }  // namespace tidemark

@@ -82,24 +82,27 @@ struct TokenizerCore {
       : options(o),
         normalizer(normalize::NormalForm::kNfkcCasefold, o.strip_accents),
         buf(64),
-        out(256) {}
+        out(256),
+        hashes(256) {}
 
-  template <bool kWithText, bool kAsciiFastPath = true>
-  void Run(std::string_view text, std::vector<Token>* tokens, std::vector<std::string>* normalized);
+  // kHashesOnly: only the token hashes, into `hashes` (tokens and normalized unused).
+  template <bool kWithText, bool kAsciiFastPath = true, bool kHashesOnly = false>
+  size_t Run(std::string_view text, std::vector<Token>* tokens, std::vector<std::string>* normalized);
 
   TextOptions options;
   normalize::Normalizer normalizer;
   uint64_t invalid_bytes = 0;
   std::vector<char> buf;   // normalized UTF-8 of the token being built
   std::vector<Token> out;  // tokens, copied to the caller's vector at the end
+  std::vector<uint64_t> hashes;  // the token hashes of TokenizeHashes
 };
 
 // The loop keeps its state in locals (not in *tokens or members), so that stores
 // through the char buffer, which may alias anything, do not force reloads.
 // flatten: inline XXH3 (the hash of a short token is a few instructions).
-template <bool kWithText, bool kAsciiFastPath>
-[[gnu::flatten]] void TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
-                                         std::vector<std::string>* normalized) {
+template <bool kWithText, bool kAsciiFastPath, bool kHashesOnly>
+[[gnu::flatten]] size_t TokenizerCore::Run(std::string_view text, std::vector<Token>* tokens,
+                                           std::vector<std::string>* normalized) {
   assert(text.size() < std::numeric_limits<uint32_t>::max());
   if constexpr (kWithText) normalized->clear();
   normalizer.Reset();
@@ -111,8 +114,9 @@ template <bool kWithText, bool kAsciiFastPath>
   size_t cap = buf.size();
   size_t len = 0;          // bytes in b
   Token* o = out.data();
-  size_t count = 0;        // tokens in o
-  size_t ocap = out.size();
+  uint64_t* ho = hashes.data();
+  size_t count = 0;        // tokens in o (hashes in ho)
+  size_t ocap = kHashesOnly ? hashes.size() : out.size();
   bool in_token = false;   // a token is being built in b
   bool ideograph = false;  // ... and it is a single-ideograph token
   uint32_t tb = 0, te = 0;  // its original byte span
@@ -126,11 +130,22 @@ template <bool kWithText, bool kAsciiFastPath>
   };
   auto push = [&](uint32_t begin, uint32_t end, const char* p, size_t size) {
     if (count == ocap) [[unlikely]] {
-      out.resize(2 * ocap);
-      o = out.data();
-      ocap = out.size();
+      if constexpr (kHashesOnly) {
+        hashes.resize(2 * ocap);
+        ho = hashes.data();
+      } else {
+        out.resize(2 * ocap);
+        o = out.data();
+      }
+      ocap *= 2;
     }
-    o[count++] = Token{begin, end, shingle::HashBytes(p, size, seed)};
+    if constexpr (kHashesOnly) {
+      (void)begin;
+      (void)end;
+      ho[count++] = shingle::HashBytes(p, size, seed);
+    } else {
+      o[count++] = Token{begin, end, shingle::HashBytes(p, size, seed)};
+    }
     if constexpr (kWithText) normalized->emplace_back(p, size);
   };
   auto emit = [&] {
@@ -318,7 +333,8 @@ template <bool kWithText, bool kAsciiFastPath>
     fast_from = end;
   }
   if (in_token) emit();
-  tokens->assign(o, o + count);
+  if constexpr (!kHashesOnly) tokens->assign(o, o + count);
+  return count;
 }
 
 }  // namespace
@@ -340,6 +356,11 @@ void Tokenizer::Tokenize(std::string_view text, std::vector<Token>* tokens) {
 void Tokenizer::TokenizeWithText(std::string_view text, std::vector<Token>* tokens,
                                  std::vector<std::string>* normalized) {
   impl_->Run<true>(text, tokens, normalized);
+}
+
+std::span<uint64_t> Tokenizer::TokenizeHashes(std::string_view text) {
+  const size_t count = impl_->Run<false, true, true>(text, nullptr, nullptr);
+  return std::span<uint64_t>(impl_->hashes.data(), count);
 }
 
 namespace shingle {

@@ -146,6 +146,40 @@ TEST_CASE("ComputeFingerprints covers every window", "[shingle]") {
   CHECK(fps.empty());
 }
 
+TEST_CASE("TokenizeHashes and FingerprintsInPlace equal Tokenize and ComputeFingerprints",
+          "[shingle]") {
+  // The index build's path (hashes only, fingerprints written over them) against the
+  // path of the probe and the evidence pass, on prose-shaped and random text.
+  std::mt19937_64 rng(23);
+  const std::vector<std::string> pieces = {"In", "the", "beginning", "GOD", "created", " ", ", ",
+                                           ". ", "\xC3\xA9t\xC3\xA9", "\xE6\xBC\xA2\xE5\xAD\x97",
+                                           "e\xCC\x81", "x1234567890abcdefghijklmnopqrstuvwxyz", "\xFF"};
+  for (const int n : {1, 2, 5, 13}) {
+    TextOptions o;
+    o.ngram = n;
+    o.seed = static_cast<uint64_t>(n) * 77;
+    Tokenizer a(o), b(o);
+    for (int iter = 0; iter < 500; ++iter) {
+      std::string text;
+      const size_t len = rng() % 80;
+      for (size_t j = 0; j < len; ++j) {
+        text += pieces[rng() % pieces.size()];
+        if (rng() % 2) text += ' ';
+      }
+      std::vector<Token> tokens;
+      std::vector<uint64_t> want;
+      a.Tokenize(text, &tokens);
+      ComputeFingerprints(tokens, o, &want);
+      const std::span<uint64_t> h = b.TokenizeHashes(text);
+      REQUIRE(h.size() == tokens.size());
+      for (size_t i = 0; i < h.size(); ++i) REQUIRE(h[i] == tokens[i].hash);
+      const size_t count = FingerprintsInPlace(h, o);
+      REQUIRE(count == want.size());
+      for (size_t i = 0; i < count; ++i) REQUIRE(h[i] == want[i]);
+    }
+  }
+}
+
 TEST_CASE("Fingerprints of text: same words, same prints, whatever the case and spacing",
           "[shingle]") {
   TextOptions o;
