@@ -145,8 +145,11 @@ namespace {
 // Buckets of about 2^kBucketLog2 keys: a bucket, its counting array and its sorted
 // copy stay in L1.
 constexpr uint32_t kBucketLog2 = 8;
-// At most 2^kMaxDigit buckets: their write positions stay in L2.
-constexpr uint32_t kMaxDigit = 11;
+// At most 2^kMaxDigit buckets. On a shard of 10^6 random keys the partition took
+// 3.5-3.9 ns a key with 2^10 buckets and 6-8 ns with 2^11 (best of 7 runs each), the
+// per-bucket sorts 6.2-6.7 ns either way: more write heads than the caches keep open
+// cost more than larger buckets do.
+constexpr uint32_t kMaxDigit = 10;
 // Buckets larger than this (many equal keys, or skewed input) go to SortShard.
 constexpr size_t kLargeBucket = size_t{1} << 14;
 

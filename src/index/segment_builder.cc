@@ -160,30 +160,32 @@ Status SegmentBuilder::AddDocument(int worker, std::span<const uint64_t> v) {
   w.ngrams += v.size();
   DocSet& d = w.doc;
   size_t cap = 64;
-  while (cap < 2 * v.size()) cap *= 2;  // load <= 1/2
-  if (d.keys.size() < cap) d.keys.assign(cap, 0);
+  while (cap < 4 * v.size()) cap *= 2;  // load <= 1/4
+  if (d.keys.size() < cap) d.keys.resize(cap);
+  d.occupied.assign(cap / 64, 0);
   const size_t mask = cap - 1;  // a power of two <= the table size
   uint64_t* const keys = d.keys.data();
+  uint64_t* const occupied = d.occupied.data();
   d.distinct.clear();
-  d.used.clear();
   d.repeats.clear();
-  uint32_t zero_count = 0;
   for (const uint64_t fp : v) {
-    if (fp == 0) {
-      ++zero_count;
-      continue;
-    }
     size_t i = static_cast<size_t>(fp ^ (fp >> 29)) & mask;  // fingerprints are uniform
-    while (keys[i] != 0 && keys[i] != fp) i = (i + 1) & mask;
-    if (keys[i] == fp) {
+    bool repeat = false;
+    while ((occupied[i / 64] >> (i % 64)) & 1) {
+      if (keys[i] == fp) {
+        repeat = true;
+        break;
+      }
+      i = (i + 1) & mask;
+    }
+    if (repeat) {
       d.repeats.push_back(fp);
     } else {
+      occupied[i / 64] |= uint64_t{1} << (i % 64);
       keys[i] = fp;
       d.distinct.push_back(fp);
-      d.used.push_back(static_cast<uint32_t>(i));
     }
   }
-  for (const uint32_t i : d.used) keys[i] = 0;  // clear for the next document
   // Repeats inside a document are rare: their keys take the slow path with their
   // number of occurrences.
   std::sort(d.repeats.begin(), d.repeats.end());
@@ -214,7 +216,6 @@ Status SegmentBuilder::AddDocument(int worker, std::span<const uint64_t> v) {
     if (!st.ok()) break;
   }
   w.keys += appended;
-  if (st.ok() && zero_count > 0) st = AddSlow(&w, 0, zero_count);
   // The lines streamed for this document reach memory before anything this thread
   // does next (a spill, or the hand-over to the finishing threads).
   StoreFence();

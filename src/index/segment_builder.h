@@ -75,14 +75,14 @@ class SegmentBuilder {
   uint64_t ngrams_total() const;
 
  private:
-  // Per-document distinct keys in O(n): an open-addressing set of keys (0 marks an
-  // empty slot; the key 0 itself is counted apart), reused across documents and
-  // cleared through its list of used slots. Keys only, at load <= 1/2: it shares the
-  // L1 cache with the staging lines. Repeated keys are listed apart.
+  // Per-document distinct keys in O(n): an open-addressing set of keys whose slots
+  // are marked in an occupancy bitmap (a few hundred bytes, cleared per document, so
+  // the key slots themselves are never cleared and most probes stay in L1). Repeated
+  // keys are listed apart.
   struct DocSet {
     std::vector<uint64_t> keys;
+    std::vector<uint64_t> occupied;  // bit i: slot i holds a key of this document
     std::vector<uint64_t> distinct;  // in first-seen order
-    std::vector<uint32_t> used;      // their slots
     std::vector<uint64_t> repeats;   // each occurrence after the first
   };
   // A worker's buffer: an arena of capacity_slots_ keys (reserved address space,
