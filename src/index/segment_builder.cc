@@ -379,7 +379,9 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     (void)env_->RemoveTree(run_dir_);
     run_dir_made_ = false;
   }
-  // The shard files were closed without an fsync each (BackgroundShardWriter).
+  // The shard files were closed without an fsync each (BackgroundShardWriter); on a
+  // disk with a write cache this last flush can take seconds.
+  if (progress_ != nullptr) progress_->Report("syncing", true);
   TM_RETURN_IF_ERROR(env_->SyncFilesystem(staging_dir));
   return env_->SyncDir(staging_dir);
 }
