@@ -316,24 +316,25 @@ Status Env::CreateDirs(const std::string& path) {
   return Status::Ok();
 }
 
-Status Env::SyncDir(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
-  if (fd < 0) return PosixError(path + ": open directory", errno);
-  const int rc = ::fsync(fd);
+namespace {
+// Opens `path` read-only with `flags`, calls sync(fd), closes it.
+Status SyncPath(const std::string& path, int flags, int (*sync)(int), const char* what) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC | flags);
+  if (fd < 0) return PosixError(path + (flags & O_DIRECTORY ? ": open directory" : ": open"), errno);
+  const int rc = sync(fd);
   const int err = errno;
   ::close(fd);
-  if (rc != 0) return PosixError(path + ": fsync directory", err);
+  if (rc != 0) return PosixError(path + ": " + what, err);
   return Status::Ok();
+}
+}  // namespace
+
+Status Env::SyncDir(const std::string& path) {
+  return SyncPath(path, O_DIRECTORY, ::fsync, "fsync directory");
 }
 
 Status Env::SyncFilesystem(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) return PosixError(path + ": open", errno);
-  const int rc = ::syncfs(fd);
-  const int err = errno;
-  ::close(fd);
-  if (rc != 0) return PosixError(path + ": syncfs", err);
-  return Status::Ok();
+  return SyncPath(path, 0, ::syncfs, "syncfs");
 }
 
 bool Env::FileExists(const std::string& path) {

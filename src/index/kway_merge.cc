@@ -154,8 +154,10 @@ bool ShardSource::Next(MergeRecord* rec) {
   if (i_ >= shard_->size()) return false;
   while (shard_->DirAt(bucket_ + 1) <= i_) ++bucket_;
   rec->fp = shard_->MakeKey(bucket_, shard_->RemainderAt(i_));
-  rec->count = shard_->CountAt(i_);
-  rec->docs = shard_->DocsAt(i_);
+  uint32_t count, docs;
+  shard_->CountsAt(i_, &count, &docs);
+  rec->count = count;
+  rec->docs = docs;
   ++i_;
   return true;
 }

@@ -49,8 +49,10 @@ uint32_t SortUniqueDigitBits(size_t n, uint32_t fixed_bits);
 /// keys among keys[0..m) in place (CollapseRuns) and return how many it kept. Buckets
 /// come in ascending order.
 ///
-/// Method: one MSD pass over the top bits below `fixed_bits` groups the keys into
-/// buckets of a few hundred (L1-sized), then each bucket is sorted by one counting
+/// Method: one MSD pass over the top bits below `fixed_bits` (at most 2^10 buckets)
+/// groups the keys into buckets of a few hundred to about a thousand keys on shards of
+/// up to a million (L1-sized; larger on larger shards, and a bucket beyond 2^14 keys
+/// falls back to SortShard), then each bucket is sorted by one counting
 /// pass and an insertion fix-up while it is in cache. Reading the input once for the
 /// digit counts and once for the partition, instead of the two full LSD passes of
 /// SortShard, measured faster per key on shards of a million keys

@@ -221,8 +221,10 @@ int64_t ShardReader::Find(uint64_t fp) const {
 }
 
 void ShardReader::AddCountsAt(uint64_t i, NgramInfo* info) const {
-  const uint64_t c = static_cast<uint64_t>(info->count) + CountAt(i);
-  const uint64_t d = static_cast<uint64_t>(info->docs) + DocsAt(i);
+  uint32_t count, docs;
+  CountsAt(i, &count, &docs);
+  const uint64_t c = static_cast<uint64_t>(info->count) + count;
+  const uint64_t d = static_cast<uint64_t>(info->docs) + docs;
   info->count = static_cast<uint32_t>(c > fmt::kMaxCount ? fmt::kMaxCount : c);
   info->docs = static_cast<uint32_t>(d > fmt::kMaxCount ? fmt::kMaxCount : d);
 }
@@ -326,8 +328,8 @@ Status ShardReader::VerifyInvariants() const {
   const uint64_t counts_off = sections_[fmt::kSecCounts].offset + fmt::kCodeHeaderBytes;
   const uint64_t docs_off = sections_[fmt::kSecDocs].offset + fmt::kCodeHeaderBytes;
   for (uint64_t i = 0; i < n_; ++i) {
-    const uint32_t c = CountAt(i);
-    const uint32_t d = DocsAt(i);
+    uint32_t c, d;
+    CountsAt(i, &c, &d);
     if (c == 0) {
       return CorruptAt(path_, counts_off + (i * cw_) / 8, "count 0 for key " + std::to_string(i));
     }

@@ -45,12 +45,15 @@ class ShardReader {
     const uint32_t code = Code(counts_, cw_, cmask_, i);
     return code != cmask_ ? code + 1 : Exception(count_ex_, count_ex_n_, i);
   }
-  /// Documents holding key i.
-  uint32_t DocsAt(uint64_t i) const {
-    const uint32_t count = CountAt(i);
-    if (dw_ == 0) return count;
+  /// Key i's count and the number of documents holding it, decoding the count once.
+  void CountsAt(uint64_t i, uint32_t* count, uint32_t* docs) const {
+    *count = CountAt(i);
+    if (dw_ == 0) {
+      *docs = *count;
+      return;
+    }
     const uint32_t code = Code(docs_, dw_, dmask_, i);
-    return code != dmask_ ? count - code : Exception(doc_ex_, doc_ex_n_, i);
+    *docs = code != dmask_ ? *count - code : Exception(doc_ex_, doc_ex_n_, i);
   }
 
   /// Exact lookup (no Bloom): index of fp, or -1.

@@ -143,14 +143,14 @@ class ShardWriter {
 
 /// Writes shard images on background threads, so that building the next shards
 /// overlaps the disk writes of the last ones. Thread-safe. The files are not fsync'ed
-/// one by one: after Finish the owner calls Env::SyncFilesystem once (on this
-/// project's test VM, 128 files of 8 MiB written with an fdatasync each took 4.8 s,
-/// twice the time of the same bytes in one file).
+/// one by one: after Finish the owner calls Env::SyncFilesystem once (see the
+/// figures below).
 /// At most `max_pending` images wait besides the `writers` being written; Submit
 /// blocks beyond that, bounding the memory held. The first error stops further writes
-/// and is returned by Finish. Two writers keep two files' writes in flight: on a
-/// virtual disk of this project's test machines that took sequential O_DIRECT writes
-/// of 8 MiB files from 200 to 285 MB/s (docs/performance.md).
+/// and is returned by Finish. Two writers keep two files' writes in flight: on the
+/// third session's test VM, 256 files of 6.7 MB written by two threads went at
+/// 230-275 MB/s with an fdatasync each and 300-400 MB/s with one syncfs at the end
+/// (docs/performance.md, "Index build reworked").
 class BackgroundShardWriter {
  public:
   static constexpr size_t kDefaultWriters = 2;
