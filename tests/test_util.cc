@@ -49,6 +49,16 @@ void WriteFile(const std::string& path, const std::string& contents) {
   if (!f) throw std::runtime_error("cannot write " + path);
 }
 
+uint64_t XxhsumH3(const std::string& path) {
+  int rc = -1;
+  const std::string out = RunCommand("xxhsum -H3 '" + path + "' 2>/dev/null", &rc);
+  const size_t eq = out.rfind(" = ");
+  if (rc != 0 || out.rfind("XXH3 (", 0) != 0 || eq == std::string::npos || out.size() < eq + 19) {
+    throw std::runtime_error("xxhsum -H3 failed on " + path + ": " + out);
+  }
+  return std::stoull(out.substr(eq + 3, 16), nullptr, 16);
+}
+
 std::string ReadFile(const std::string& path) {
   std::ifstream f(path, std::ios::binary);
   if (!f) throw std::runtime_error("cannot read " + path);

@@ -3,6 +3,7 @@
 #ifndef TIDEMARK_TESTS_TEST_UTIL_H_
 #define TIDEMARK_TESTS_TEST_UTIL_H_
 
+#include <cstdint>
 #include <string>
 
 namespace tidemark::testing {
@@ -21,6 +22,10 @@ bool PathExists(const std::string& path);
 /// Writes `contents` to `path` (test fixtures).
 void WriteFile(const std::string& path, const std::string& contents);
 std::string ReadFile(const std::string& path);
+/// XXH3-64 (seed 0) of a file's bytes by `xxhsum -H3` (Debian package xxhash 0.8.1),
+/// which prints "XXH3 (<path>) = <16 hex>", the hash as a big-endian hex number
+/// (checked by running it). Throws if xxhsum fails or prints something else.
+uint64_t XxhsumH3(const std::string& path);
 
 }  // namespace tidemark::testing
 

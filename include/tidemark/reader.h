@@ -20,6 +20,7 @@
 #include <array>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -126,6 +127,10 @@ class RecordReader {
   virtual const SkipStats& skips() const = 0;
   /// Bytes of the file on disk consumed so far (compressed), for progress.
   virtual uint64_t disk_bytes_read() const = 0;
+  /// XXH3-64 (seed 0) of the file's bytes on disk, once all were read from disk (at
+  /// the latest when Next has returned false); nullopt before, or for input that is
+  /// not a regular file.
+  virtual std::optional<uint64_t> disk_checksum() const = 0;
 };
 
 /// A block of whole lines of a line-oriented file (JSONL, text lines), decompressed.
@@ -151,6 +156,8 @@ class BlockReader {
   virtual const SkipStats& skips() const = 0;
   virtual uint64_t disk_bytes_read() const = 0;
   virtual uint64_t disk_bytes_total() const = 0;
+  /// As RecordReader::disk_checksum.
+  virtual std::optional<uint64_t> disk_checksum() const = 0;
 };
 
 /// Parses the records of a LineBlock. One per thread.

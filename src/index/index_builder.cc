@@ -321,8 +321,16 @@ class CorpusFeeder {
   Status Close(std::unique_ptr<Open> o) {
     const std::string& path = paths_[o->index];
     const SkipStats& s = o->blocks ? o->blocks->skips() : o->records->skips();
+    // The checksum of the bytes just read, or (if the reader could not give one) of a
+    // second read of the file.
+    const std::optional<uint64_t> read_sum =
+        o->blocks ? o->blocks->disk_checksum() : o->records->disk_checksum();
     uint64_t sum = 0;
-    TM_RETURN_IF_ERROR(HashFile(path, &sum));
+    if (read_sum.has_value()) {
+      sum = *read_sum;
+    } else {
+      TM_RETURN_IF_ERROR(HashFile(path, &sum));
+    }
     TM_ASSIGN_OR_RETURN(ManifestFile now, StatFile(path));
     ManifestFile& f = files_[o->index];
     if (now.size != f.size || now.mtime_ns != f.mtime_ns) {

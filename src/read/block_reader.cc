@@ -105,6 +105,7 @@ class BlockReaderImpl final : public BlockReader {
 
   const SkipStats& skips() const override { return skips_; }
   uint64_t disk_bytes_read() const override { return source_->disk_bytes_read(); }
+  std::optional<uint64_t> disk_checksum() const override { return source_->disk_checksum(); }
   uint64_t disk_bytes_total() const override { return source_->disk_bytes_total(); }
 
  private:

@@ -3,6 +3,7 @@
 #include <fcntl.h>
 #include <sys/stat.h>
 #include <unistd.h>
+#include <xxhash.h>
 #include <zlib.h>
 #include <zstd.h>
 
@@ -32,9 +33,15 @@ std::string MagicHex(const unsigned char* p, size_t n) {
 
 class FileSource final : public ByteSource {
  public:
-  FileSource(std::string path, int fd, uint64_t size)
-      : path_(std::move(path)), fd_(fd), size_(size) {}
-  ~FileSource() override { ::close(fd_); }
+  FileSource(std::string path, int fd, uint64_t size, bool regular)
+      : path_(std::move(path)), fd_(fd), size_(size), regular_(regular),
+        hash_(XXH3_createState()) {
+    if (hash_ != nullptr) XXH3_64bits_reset(hash_);
+  }
+  ~FileSource() override {
+    ::close(fd_);
+    XXH3_freeState(hash_);
+  }
 
   Result<size_t> Read(char* buf, size_t n) override {
     while (true) {
@@ -44,18 +51,32 @@ class FileSource final : public ByteSource {
         return PosixError(path_ + "@" + std::to_string(read_) + ": read", errno);
       }
       read_ += static_cast<uint64_t>(got);
+      if (hash_ != nullptr) {
+        if (got > 0) {
+          XXH3_64bits_update(hash_, buf, static_cast<size_t>(got));
+        } else if (n > 0 && regular_ && read_ == size_) {
+          at_end_ = true;
+        }
+      }
       return static_cast<size_t>(got);
     }
   }
   uint64_t disk_bytes_read() const override { return read_; }
   uint64_t disk_bytes_total() const override { return size_; }
+  std::optional<uint64_t> disk_checksum() const override {
+    if (!at_end_) return std::nullopt;
+    return XXH3_64bits_digest(hash_);
+  }
   const std::string& path() const override { return path_; }
 
  private:
   std::string path_;
   int fd_;
   uint64_t size_;
+  bool regular_;
   uint64_t read_ = 0;
+  XXH3_state_t* hash_;  // nullptr if it could not be allocated: no checksum then
+  bool at_end_ = false;
 };
 
 Result<std::unique_ptr<FileSource>> OpenFile(const std::string& path) {
@@ -72,7 +93,8 @@ Result<std::unique_ptr<FileSource>> OpenFile(const std::string& path) {
     return Status::IOError(path + ": is a directory, not a file");
   }
   ::posix_fadvise(fd, 0, 0, POSIX_FADV_SEQUENTIAL);
-  return std::make_unique<FileSource>(path, fd, S_ISREG(st.st_mode) ? st.st_size : 0);
+  const bool regular = S_ISREG(st.st_mode);
+  return std::make_unique<FileSource>(path, fd, regular ? st.st_size : 0, regular);
 }
 
 // Base for the decompressors: owns the file and an input buffer.
@@ -82,6 +104,7 @@ class CompressedSource : public ByteSource {
       : file_(std::move(file)), in_(kDiskReadBytes) {}
   uint64_t disk_bytes_read() const override { return file_->disk_bytes_read(); }
   uint64_t disk_bytes_total() const override { return file_->disk_bytes_total(); }
+  std::optional<uint64_t> disk_checksum() const override { return file_->disk_checksum(); }
   const std::string& path() const override { return file_->path(); }
 
  protected:

@@ -13,6 +13,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <string>
 
 #include "tidemark/reader.h"
@@ -29,6 +30,10 @@ class ByteSource {
   virtual uint64_t disk_bytes_read() const = 0;
   /// Size of the file on disk (0 when unknown, e.g. a pipe).
   virtual uint64_t disk_bytes_total() const = 0;
+  /// XXH3-64 (seed 0) of the file's bytes on disk, once they have all been read (the
+  /// stream reached its end and the byte count equals the size of a regular file);
+  /// nullopt before that. Saves the index build a second read of each input.
+  virtual std::optional<uint64_t> disk_checksum() const = 0;
   virtual const std::string& path() const = 0;
 };
 

@@ -133,6 +133,7 @@ class CsvReader final : public RecordReader {
 
   const SkipStats& skips() const override { return skips_; }
   uint64_t disk_bytes_read() const override { return source_->disk_bytes_read(); }
+  std::optional<uint64_t> disk_checksum() const override { return source_->disk_checksum(); }
 
  private:
   static constexpr size_t kNoColumn = static_cast<size_t>(-1);

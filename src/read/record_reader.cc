@@ -37,6 +37,7 @@ class LineRecordReader final : public RecordReader {
     return combined_;
   }
   uint64_t disk_bytes_read() const override { return blocks_->disk_bytes_read(); }
+  std::optional<uint64_t> disk_checksum() const override { return blocks_->disk_checksum(); }
 
  private:
   std::unique_ptr<BlockReader> blocks_;
@@ -122,6 +123,7 @@ class WholeTextReader final : public RecordReader {
   }
   const SkipStats& skips() const override { return skips_; }
   uint64_t disk_bytes_read() const override { return source_->disk_bytes_read(); }
+  std::optional<uint64_t> disk_checksum() const override { return source_->disk_checksum(); }
 
  private:
   std::string path_;
@@ -191,6 +193,7 @@ class JsonArrayReader final : public RecordReader {
   }
   const SkipStats& skips() const override { return skips_; }
   uint64_t disk_bytes_read() const override { return source_->disk_bytes_read(); }
+  std::optional<uint64_t> disk_checksum() const override { return source_->disk_checksum(); }
 
  private:
   Status TooBig(uint64_t bytes) const {

@@ -7,6 +7,7 @@
 #include <cstdio>
 
 #include "test_util.h"
+#include "index/manifest.h"
 #include "tidemark/index.h"
 #include "tidemark/index_builder.h"
 
@@ -68,6 +69,13 @@ TEST_CASE("KJV n-grams and counts equal an independent Python computation",
     const std::string got = Dump(dir + "/idx");
     CHECK(got.size() == want.size());
     CHECK(got == want);
+    // The manifest's content checksum of the input (taken while it was read) equals
+    // `xxhsum -H3` of the file (Debian package xxhash).
+    auto m = ReadManifest(dir + "/idx");
+    REQUIRE(m.ok());
+    REQUIRE(m->segments.size() == 1);
+    REQUIRE(m->segments[0].files.size() == 1);
+    CHECK(m->segments[0].files[0].xxh3 == testing::XxhsumH3(corpus));
     // The CLI's dump prints the same lines.
     const std::string cli = testing::RunCommand(testing::CliPath() + " index dump " + dir + "/idx", &rc);
     CHECK(rc == 0);

@@ -245,5 +245,60 @@ TEST_CASE("empty compressed-named files are empty inputs", "[read]") {
   }
 }
 
+TEST_CASE("disk_checksum: XXH3-64 of the bytes on disk once all were read, as xxhsum -H3",
+          "[read][checksum]") {
+  // Reference: `xxhsum -H3` of Debian's xxhash package on the same files.
+  const std::string dir = testing::ScratchDir("disk_checksum");
+  std::string text;
+  for (int i = 0; i < 40; ++i) text += Lines(1 + 1000 * i, 1000 * i + 900);  // ~1.7 MB
+  WriteFile(dir + "/plain.jsonl", text);
+  Run("zstd -q -c " + dir + "/plain.jsonl > " + dir + "/z.jsonl.zst");
+  Run("gzip -c " + dir + "/plain.jsonl > " + dir + "/g.jsonl.gz");
+  WriteFile(dir + "/empty.jsonl", "");
+  for (const std::string name : {"plain.jsonl", "z.jsonl.zst", "g.jsonl.gz", "empty.jsonl"}) {
+    const std::string path = dir + "/" + name;
+    INFO(path);
+    auto src = OpenByteSource(path, Compression::kAuto);
+    REQUIRE(src.ok());
+    std::string buf(1 << 16, '\0');
+    // Not before the end: a checksum of a prefix would pass for the file's. (The
+    // compressed files here fit in one disk read, so theirs is known at once.)
+    if (name == std::string("plain.jsonl")) {
+      auto n = (*src)->Read(buf.data(), buf.size());
+      REQUIRE(n.ok());
+      CHECK(*n > 0);
+      CHECK_FALSE((*src)->disk_checksum().has_value());
+    }
+    while (true) {
+      auto n = (*src)->Read(buf.data(), buf.size());
+      REQUIRE(n.ok());
+      if (*n == 0) break;
+    }
+    REQUIRE((*src)->disk_checksum().has_value());
+    CHECK(*(*src)->disk_checksum() == testing::XxhsumH3(path));
+  }
+  // A block reader and a record reader hand on the same value at their end.
+  auto blocks = BlockReader::Open(dir + "/z.jsonl.zst", ReadOptions{});
+  REQUIRE(blocks.ok());
+  LineBlock b;
+  while (true) {
+    auto more = (*blocks)->Next(&b);
+    REQUIRE(more.ok());
+    if (!*more) break;
+  }
+  REQUIRE((*blocks)->disk_checksum().has_value());
+  CHECK(*(*blocks)->disk_checksum() == testing::XxhsumH3(dir + "/z.jsonl.zst"));
+  auto records = RecordReader::Open(dir + "/g.jsonl.gz", ReadOptions{});
+  REQUIRE(records.ok());
+  Record r;
+  while (true) {
+    auto more = (*records)->Next(&r);
+    REQUIRE(more.ok());
+    if (!*more) break;
+  }
+  REQUIRE((*records)->disk_checksum().has_value());
+  CHECK(*(*records)->disk_checksum() == testing::XxhsumH3(dir + "/g.jsonl.gz"));
+}
+
 }  // namespace
 }  // namespace tidemark

@@ -28,19 +28,11 @@ std::string SanityBuffer(size_t len) {
   return buf;
 }
 
-// XXH3-64 of a file's bytes by `xxhsum -H3`, which prints "XXH3 (<path>) = <16 hex>",
-// the hash as a big-endian hex number (checked by running xxhsum 0.8.1).
+// XXH3-64 of `bytes` by `xxhsum -H3` (testing::XxhsumH3).
 uint64_t Xxhsum(const std::string& bytes) {
-  const std::string dir = testing::ScratchDir("xxhsum");
-  const std::string path = dir + "/in.bin";
+  const std::string path = testing::ScratchDir("xxhsum") + "/in.bin";
   testing::WriteFile(path, bytes);
-  int rc = -1;
-  const std::string out = testing::RunCommand("xxhsum -H3 '" + path + "' 2>/dev/null", &rc);
-  REQUIRE(rc == 0);
-  const size_t eq = out.rfind(" = ");
-  REQUIRE(out.rfind("XXH3 (", 0) == 0);
-  REQUIRE(eq != std::string::npos);
-  return std::stoull(out.substr(eq + 3, 16), nullptr, 16);
+  return testing::XxhsumH3(path);
 }
 
 TEST_CASE("HashToken reproduces the XXH3-64 sanity vectors", "[shingle][xxh3]") {
