@@ -82,9 +82,12 @@ class BloomFilterBuilder {
   void AddAll(std::span<const uint64_t> keys);
   /// AddAll that also calls visit(i, keys[i]) for every key in order, so that a
   /// caller's own pass over the keys shares this one (ShardWriter lays out the
-  /// directory and the remainders this way).
+  /// directory and the remainders this way). The visitor is taken and returned by
+  /// value: a visitor that keeps its state in members (not in references to the
+  /// caller's variables) can have that state kept in registers, because the byte
+  /// stores of the filter cannot alias it.
   template <typename Visit>
-  void AddAllVisiting(std::span<const uint64_t> keys, Visit&& visit);
+  Visit AddAllVisiting(std::span<const uint64_t> keys, Visit visit);
   const std::vector<uint8_t>& bytes() const { return bytes_; }
   /// Moves the blocks out (the builder is empty afterwards).
   std::vector<uint8_t> TakeBytes() { return std::move(bytes_); }
@@ -128,11 +131,15 @@ inline void FoldMap(uint8_t* map, uint8_t* block) {
   }
 }
 
-// Marks the k positions of a key with mixed hash h in map. A compile-time k unrolls
-// the loop; positions past the 7th come from further words of the stream.
+// Marks the k positions of a key with mixed hash h in map. A compile-time k, and the
+// pragma (GCC 12 left the loop of 6 rolled at -O2), unroll the loop: adding 2^20 sorted
+// keys at 10 bits per key took 5.4-6.1 ns a key unrolled against 6.7-9.0 rolled (three
+// alternating runs, best of 40 each). Positions past the 7th come from further words
+// of the stream.
 template <uint32_t kK>
 inline void MarkPositions(uint64_t h, uint8_t* map) {
   uint64_t w = h;
+#pragma GCC unroll 16
   for (uint32_t i = 0; i < kK; ++i) {
     if (i > 0 && i % 7 == 0) w = index_format::BloomWord(h, i / 7);
     map[w & 511] = 0x80;
@@ -141,8 +148,8 @@ inline void MarkPositions(uint64_t h, uint8_t* map) {
 }
 
 template <uint32_t kK, typename Visit>
-void AddAllK(std::span<const uint64_t> keys, uint32_t shard_bits, uint64_t num_blocks,
-             uint8_t* blocks, Visit& visit) {
+Visit AddAllK(std::span<const uint64_t> keys, uint32_t shard_bits, uint64_t num_blocks,
+              uint8_t* blocks, Visit visit) {
   // Ascending keys visit each block in one stretch. A stretch's bit positions are
   // marked as bytes of a 512-byte map (plain stores, no read-modify-write) that is
   // folded into its block later. ORing each position into a 64-bit word of a mask
@@ -168,22 +175,29 @@ void AddAllK(std::span<const uint64_t> keys, uint32_t shard_bits, uint64_t num_b
   }
   if (prev != kNone) FoldMap(maps[m ^ 1], blocks + prev * index_format::kBloomBlockBytes);
   if (cur != kNone) FoldMap(maps[m], blocks + cur * index_format::kBloomBlockBytes);
+  return visit;
 }
 
-template <typename Visit, uint32_t... kKs>
-void DispatchAddAll(uint32_t k, std::span<const uint64_t> keys, uint32_t shard_bits,
-                    uint64_t num_blocks, uint8_t* blocks, Visit& visit,
-                    std::integer_sequence<uint32_t, kKs...>) {
-  ((k == kKs + 1 ? AddAllK<kKs + 1>(keys, shard_bits, num_blocks, blocks, visit) : void()), ...);
+// AddAllK for the k of the filter (1..kMaxK, checked by the constructor).
+template <uint32_t kK, uint32_t kMaxK, typename Visit>
+Visit DispatchAddAll(uint32_t k, std::span<const uint64_t> keys, uint32_t shard_bits,
+                     uint64_t num_blocks, uint8_t* blocks, Visit visit) {
+  if constexpr (kK < kMaxK) {
+    if (k != kK) {
+      return DispatchAddAll<kK + 1, kMaxK>(k, keys, shard_bits, num_blocks, blocks,
+                                           std::move(visit));
+    }
+  }
+  return AddAllK<kK>(keys, shard_bits, num_blocks, blocks, std::move(visit));
 }
 
 }  // namespace bloom_detail
 
 template <typename Visit>
-void BloomFilterBuilder::AddAllVisiting(std::span<const uint64_t> keys, Visit&& visit) {
+Visit BloomFilterBuilder::AddAllVisiting(std::span<const uint64_t> keys, Visit visit) {
   static_assert(kMaxK == 16);
-  bloom_detail::DispatchAddAll(k_, keys, shard_bits_, num_blocks_, bytes_.data(), visit,
-                               std::make_integer_sequence<uint32_t, kMaxK>());
+  return bloom_detail::DispatchAddAll<1, kMaxK>(k_, keys, shard_bits_, num_blocks_,
+                                                bytes_.data(), std::move(visit));
 }
 
 /// Expected false-positive rate of a 512-bit blocked filter with k bits per key

@@ -145,6 +145,40 @@ void ShardWriter::Add(uint64_t fp, uint64_t count, uint64_t docs) {
   total_docs_ = SatAdd(total_docs_, docs > fmt::kMaxCount ? fmt::kMaxCount : docs);
 }
 
+namespace {
+
+// The directory and remainder part of BuildImage's pass over the keys (a visitor of
+// BloomFilterBuilder::AddAllVisiting): its state lives in members, not in references
+// to locals, so that it stays in registers (2^20 keys: 6.4 against 6.7 ns a key).
+struct RemainderPacker {
+  char* dir = nullptr;        // dir[j] = index of the first key of bucket j, u32 LE
+  char* rem = nullptr;        // next 8-byte word of the packed remainders
+  uint64_t next_bucket = 0;   // first bucket whose dir entry is not written yet
+  uint64_t bucket_mask = 0;
+  uint64_t rem_mask = 0;
+  uint64_t acc = 0;           // remainder bits not yet stored, LSB first
+  uint32_t w = 0;             // remainder bits
+  uint32_t fill = 0;          // bits in acc
+
+  void operator()(size_t i, uint64_t key) {
+    const uint64_t j = (key >> w) & bucket_mask;
+    while (next_bucket <= j) fmt::StoreLE32(dir + 4 * next_bucket++, static_cast<uint32_t>(i));
+    const uint64_t r = key & rem_mask;
+    acc |= r << fill;
+    const uint32_t room = 64 - fill;
+    if (w >= room) {
+      fmt::StoreLE64(rem, acc);
+      rem += 8;
+      acc = room == 64 ? 0 : (r >> room);
+      fill = w - room;
+    } else {
+      fill += w;
+    }
+  }
+};
+
+}  // namespace
+
 Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   if (external_) {
     counts_.resize(added_);
@@ -175,30 +209,17 @@ Status ShardWriter::BuildImage(const std::string& path, ShardImage* out) {
   std::string rem = std::move(out->rem);
   rem.assign((n * w + 63) / 64 * 8 + 8, '\0');
   {
-    char* const d = dir.data();
-    uint64_t next_bucket = 0;
-    const uint64_t bucket_mask = num_buckets - 1;
-    const uint64_t rem_mask = (uint64_t{1} << w) - 1;  // w <= kMaxRemainderBits < 64
-    char* p = rem.data();
-    uint64_t acc = 0;
-    uint32_t fill = 0;
-    bloom.AddAllVisiting(keys, [&](size_t i, uint64_t key) {
-      const uint64_t j = (key >> w) & bucket_mask;
-      while (next_bucket <= j) fmt::StoreLE32(d + 4 * next_bucket++, static_cast<uint32_t>(i));
-      const uint64_t r = key & rem_mask;
-      acc |= r << fill;
-      const uint32_t room = 64 - fill;
-      if (w >= room) {
-        fmt::StoreLE64(p, acc);
-        p += 8;
-        acc = room == 64 ? 0 : (r >> room);
-        fill = w - room;
-      } else {
-        fill += w;
-      }
-    });
-    while (next_bucket <= num_buckets) fmt::StoreLE32(d + 4 * next_bucket++, static_cast<uint32_t>(n));
-    if (fill > 0) fmt::StoreLE64(p, acc);
+    RemainderPacker packer;
+    packer.dir = dir.data();
+    packer.rem = rem.data();
+    packer.bucket_mask = num_buckets - 1;
+    packer.rem_mask = (uint64_t{1} << w) - 1;  // w <= kMaxRemainderBits < 64
+    packer.w = w;
+    packer = bloom.AddAllVisiting(keys, packer);
+    while (packer.next_bucket <= num_buckets) {
+      fmt::StoreLE32(packer.dir + 4 * packer.next_bucket++, static_cast<uint32_t>(n));
+    }
+    if (packer.fill > 0) fmt::StoreLE64(packer.rem, packer.acc);
   }
   // The key array is no longer needed; free it before the write buffers grow.
   std::vector<uint64_t>().swap(keys_);
