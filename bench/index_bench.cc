@@ -66,7 +66,7 @@ double CpuSeconds() {
 }
 
 struct Args {
-  std::string mode = "build";
+  std::string mode;
   std::vector<std::string> zst;
   std::string jsonl;
   std::string index;
@@ -477,6 +477,17 @@ int main(int argc, char** argv) {
     }
   }
   std::sort(a.zst.begin(), a.zst.end());
+  if (argc < 2 || a.mode.empty()) {
+    std::fprintf(stderr,
+                 "usage: index_bench build|rss|lookup|sink|layout|naive [options]; the modes and "
+                 "their options are listed at the top of bench/index_bench.cc\n");
+    return 2;
+  }
+  if ((a.mode == "build" || a.mode == "rss") && a.zst.empty()) {
+    std::fprintf(stderr, "index_bench %s: --zst FILE... is required (a corpus from "
+                 "scripts/gen_corpus.py --zstd)\n", a.mode.c_str());
+    return 2;
+  }
   if (a.mode == "build") return Build(a);
   if (a.mode == "rss") return Rss(a);
   if (a.mode == "lookup") return Lookup(a);
