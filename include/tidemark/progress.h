@@ -22,6 +22,12 @@ struct ProgressEvent {
   uint64_t done_bytes = 0;   ///< input bytes consumed so far (on-disk bytes)
   uint64_t total_bytes = 0;  ///< 0 when unknown
   uint64_t records = 0;      ///< records (documents, items) processed so far
+  /// A phase that counts pieces of work instead of input bytes (an index build's
+  /// shards while "merging"): done_units of total_units `unit`s; total_units is 0
+  /// in phases that count bytes.
+  uint64_t done_units = 0;
+  uint64_t total_units = 0;
+  std::string_view unit;
 };
 
 class ProgressSink {

@@ -59,24 +59,49 @@ void ProgressPrinter::Update(const ProgressEvent& e) {
   if (!enabled_) return;
   const auto now = std::chrono::steady_clock::now();
   std::lock_guard<std::mutex> lock(mu_);
+  // A phase counting pieces of work (shards) has its own rate, from its first event
+  // (seen here even when it is not printed).
+  if (e.total_units > 0 && (e.phase != units_phase_ || e.total_units != units_total_)) {
+    units_phase_ = std::string(e.phase);
+    units_total_ = e.total_units;
+    units_start_ = now;
+    units_done0_ = e.done_units;
+  }
   const double since_last = std::chrono::duration<double>(now - last_).count();
   if (since_last < (tty_ ? 0.25 : log_interval_s_)) return;
   last_ = now;
-  const double elapsed = std::chrono::duration<double>(now - start_).count();
-  const double rate = elapsed > 0 ? static_cast<double>(e.done_bytes) / elapsed : 0.0;
-  std::string line = what_ + " [" + std::string(e.phase) + "] " +
-                     FormatBytes(static_cast<double>(e.done_bytes));
-  if (e.total_bytes > 0) {
-    char pct[32];
-    std::snprintf(pct, sizeof(pct), " of %s (%.1f%%)",
-                  FormatBytes(static_cast<double>(e.total_bytes)).c_str(),
-                  100.0 * static_cast<double>(e.done_bytes) / static_cast<double>(e.total_bytes));
-    line += pct;
+  std::string line = what_ + " [" + std::string(e.phase) + "]";
+  double eta = -1;  // seconds, when known
+  if (e.total_units > 0) {
+    char buf[96];
+    std::snprintf(buf, sizeof(buf), " %s %llu of %llu (%.1f%%)", std::string(e.unit).c_str(),
+                  static_cast<unsigned long long>(e.done_units),
+                  static_cast<unsigned long long>(e.total_units),
+                  100.0 * static_cast<double>(e.done_units) / static_cast<double>(e.total_units));
+    line += buf;
+    const double phase_s = std::chrono::duration<double>(now - units_start_).count();
+    if (e.done_units > units_done0_ && phase_s > 0 && e.done_units < e.total_units) {
+      const double rate = static_cast<double>(e.done_units - units_done0_) / phase_s;
+      eta = static_cast<double>(e.total_units - e.done_units) / rate;
+    }
+  } else if (e.total_bytes > 0 || e.done_bytes > 0) {
+    const double elapsed = std::chrono::duration<double>(now - start_).count();
+    const double rate = elapsed > 0 ? static_cast<double>(e.done_bytes) / elapsed : 0.0;
+    line += " " + FormatBytes(static_cast<double>(e.done_bytes));
+    if (e.total_bytes > 0) {
+      char pct[32];
+      std::snprintf(pct, sizeof(pct), " of %s (%.1f%%)",
+                    FormatBytes(static_cast<double>(e.total_bytes)).c_str(),
+                    100.0 * static_cast<double>(e.done_bytes) / static_cast<double>(e.total_bytes));
+      line += pct;
+    }
+    line += ", " + FormatBytes(rate) + "/s";
+    if (e.total_bytes > 0 && rate > 0 && e.done_bytes < e.total_bytes) {
+      eta = static_cast<double>(e.total_bytes - e.done_bytes) / rate;
+    }
   }
-  line += ", " + FormatBytes(rate) + "/s";
   if (e.records > 0) line += ", " + std::to_string(e.records) + " records";
-  if (e.total_bytes > 0 && rate > 0 && e.done_bytes < e.total_bytes) {
-    const double eta = static_cast<double>(e.total_bytes - e.done_bytes) / rate;
+  if (eta >= 0) {
     char buf[32];
     std::snprintf(buf, sizeof(buf), ", ETA %.0fs", eta);
     line += buf;

@@ -52,6 +52,11 @@ class ProgressPrinter final : public ProgressSink {
   std::mutex mu_;
   std::chrono::steady_clock::time_point start_;
   std::chrono::steady_clock::time_point last_;
+  // The phase counting units (ProgressEvent::total_units) last seen, for its rate.
+  std::string units_phase_;
+  uint64_t units_total_ = 0;
+  uint64_t units_done0_ = 0;
+  std::chrono::steady_clock::time_point units_start_;
 };
 
 /// Human-readable byte size ("1.5 GB").

@@ -481,6 +481,7 @@ Status WriteSegment(SegmentJob& job, const IndexBuildOptions& o, const Feed& fee
     stats->cpu_seconds_reading = cpu1 - cpu0;
     if (st.ok() && CancelRequested()) st = Status::Cancelled("index build interrupted");
     if (st.ok()) {
+      progress.SetUnits("merging", 0, uint64_t{1} << params.shard_bits, "shards");
       progress.Report("merging", true);
       const auto t1 = Clock::now();
       st = builder.Finish(staging, threads, &seg);
@@ -606,6 +607,8 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
   seg->shards.assign(num_shards, ManifestShard{});
   FirstError errors;
   std::atomic<uint32_t> done{0};
+  progress->SetUnits("merging", 0, num_shards, "shards");
+  progress->Report("merging", true);
   // Shard files are written in the background while the next shards are merged.
   BackgroundShardWriter io(env, direct, /*max_pending=*/1);
   tbb::task_arena arena(threads);
@@ -623,7 +626,7 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
       });
       if (st.ok()) st = SubmitShard(&writer, s, staging, io.TakeWritten(), &io, &seg->shards[s]);
       if (!st.ok()) return errors.Set(st);
-      progress->SetDone(done.fetch_add(1) + 1);
+      progress->SetUnits("merging", done.fetch_add(1) + 1, num_shards, "shards");
       progress->Report("merging");
     }, tbb::simple_partitioner());
   });
@@ -792,7 +795,6 @@ Status MergeSegments(const std::string& dir, const IndexMergeOptions& o, IndexMe
     return Status::Ok();
   }
   ProgressReporter progress(o.progress);
-  progress.set_total(1u << m.shard_bits);
   progress.Report("verifying", true);
   TM_ASSIGN_OR_RETURN(auto readers, OpenAllShards(dir, m, /*verify_checksums=*/true, threads));
   const size_t nseg = m.segments.size();
@@ -904,7 +906,6 @@ Status MergeIndexes(const std::string& out_dir, const std::vector<std::string>& 
   base.bloom_bits_per_key = ms.front().bloom_bits_per_key;
   base.params_hash = ms.front().params_hash();
   ProgressReporter progress(o.progress);
-  progress.set_total(num_shards);
   ManifestSegment seg;
   seg.id = 1;
   Status st = MergeShardFiles(by_shard, base, staging, threads, o.direct_writes, env, &progress, &seg);

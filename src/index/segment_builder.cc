@@ -93,7 +93,23 @@ void ProgressReporter::Report(std::string_view phase, bool force) {
   e.done_bytes = done_.load(std::memory_order_relaxed);
   e.total_bytes = total_;
   e.records = records_.load(std::memory_order_relaxed);
+  if (phase == units_phase_) {
+    e.done_units = done_units_;
+    e.total_units = total_units_;
+    e.unit = unit_;
+  }
   sink_->Update(e);
+}
+
+void ProgressReporter::SetUnits(std::string_view phase, uint64_t done, uint64_t total,
+                                std::string_view unit) {
+  std::lock_guard<std::mutex> lock(mu_);
+  // Threads may set their counts out of order; within a phase the count never goes back.
+  const bool same = phase == units_phase_ && total == total_units_;
+  done_units_ = same ? std::max(done_units_, done) : done;
+  units_phase_ = phase;
+  total_units_ = total;
+  unit_ = unit;
 }
 
 SegmentBuilder::SegmentBuilder(const ShardParams& params, int workers, uint64_t buffer_bytes,
@@ -335,10 +351,10 @@ Status SegmentBuilder::Spill(Worker* w) {
   return Status::Ok();
 }
 
-void SegmentBuilder::ReportShardDone(std::atomic<uint32_t>* done, uint64_t total_bytes) {
+void SegmentBuilder::ReportShardDone(std::atomic<uint32_t>* done) {
   const uint32_t d = done->fetch_add(1) + 1;
-  if (progress_ != nullptr && total_bytes > 0) {
-    progress_->SetDone(total_bytes * d / num_shards_);
+  if (progress_ != nullptr) {
+    progress_->SetUnits("merging", d, num_shards_, "shards");
     progress_->Report("merging");
   }
 }
@@ -510,7 +526,6 @@ Status SegmentBuilder::ForEachShard(
   std::vector<Status> shard_status(num_shards_);
   std::atomic<bool> failed{false};
   std::atomic<uint32_t> shards_done{0};
-  const uint64_t progress_total = progress_ != nullptr ? progress_->done() : 0;
   BackgroundShardWriter io(env_, direct_writes_,
                            kPendingImages - BackgroundShardWriter::kDefaultWriters);
   tbb::task_arena arena(conc);
@@ -525,7 +540,7 @@ Status SegmentBuilder::ForEachShard(
             failed = true;
             return;
           }
-          ReportShardDone(&shards_done, progress_total);
+          ReportShardDone(&shards_done);
         },
         tbb::simple_partitioner());
   });

@@ -40,7 +40,9 @@ class ProgressReporter {
   void set_total(uint64_t total) { total_ = total; }
   void AddBytes(uint64_t n) { done_.fetch_add(n, std::memory_order_relaxed); }
   void AddRecords(uint64_t n) { records_.fetch_add(n, std::memory_order_relaxed); }
-  void SetDone(uint64_t done) { done_.store(done, std::memory_order_relaxed); }
+  /// Counts `unit`s (a string literal) for reports of `phase` (a string literal):
+  /// done of total. Reports of other phases carry no units.
+  void SetUnits(std::string_view phase, uint64_t done, uint64_t total, std::string_view unit);
   /// Reports at most every 100 ms unless `force`.
   void Report(std::string_view phase, bool force = false);
   uint64_t done() const { return done_.load(); }
@@ -52,6 +54,11 @@ class ProgressReporter {
   std::atomic<uint64_t> done_{0};
   std::atomic<uint64_t> records_{0};
   std::atomic<int64_t> last_ns_{0};
+  // Guarded by mu_.
+  std::string_view units_phase_;
+  std::string_view unit_;
+  uint64_t done_units_ = 0;
+  uint64_t total_units_ = 0;
 };
 
 class SegmentBuilder {
@@ -137,7 +144,7 @@ class SegmentBuilder {
   Status FinishInMemory(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
   // Runs (everything spilled): per shard, k-way merge the runs and write.
   Status FinishFromRuns(const std::string& staging_dir, int conc_max, ManifestSegment* seg);
-  void ReportShardDone(std::atomic<uint32_t>* done, uint64_t total_bytes);
+  void ReportShardDone(std::atomic<uint32_t>* done);
   // Runs fn(shard, writer) for every shard on `conc` threads, the shard files going
   // through one background writer; reports progress; the first error wins.
   Status ForEachShard(int conc, const std::function<Status(uint32_t, BackgroundShardWriter*)>& fn);

@@ -8,6 +8,7 @@
 #include <algorithm>
 #include <filesystem>
 #include <random>
+#include <mutex>
 #include <thread>
 
 #include "common/env.h"
@@ -481,4 +482,95 @@ TEST_CASE("kill -9 or Ctrl-C during a CLI build leaves no index; the next build 
 }
 
 }  // namespace
+
+namespace {
+// Records every progress event (phase names are string literals, kept as views).
+class RecordingSink final : public ProgressSink {
+ public:
+  void Update(const ProgressEvent& e) override {
+    std::lock_guard<std::mutex> lock(mu);
+    events.push_back(e);
+  }
+  std::mutex mu;
+  std::vector<ProgressEvent> events;
+};
+}  // namespace
+
+TEST_CASE("progress: reading counts input bytes, merging counts shards, syncing neither",
+          "[index][progress]") {
+  // Two JSONL files of the lines of the GPL version 3 text that Debian's base-files
+  // ships (real text, split by line parity), so that reading has bytes to count.
+  const std::string dir = testing::ScratchDir("progress");
+  const std::string gpl = testing::ReadFile("/usr/share/common-licenses/GPL-3");
+  std::string a, b;
+  size_t pos = 0, n = 0;
+  while (pos < gpl.size()) {
+    size_t nl = gpl.find('\n', pos);
+    if (nl == std::string::npos) nl = gpl.size();
+    std::string text;
+    for (const char c : gpl.substr(pos, nl - pos)) {
+      if (c == '"' || c == '\\') text += '\\';
+      text += c;
+    }
+    pos = nl + 1;
+    if (text.empty()) continue;
+    (n++ % 2 == 0 ? a : b) += "{\"text\": \"" + text + "\"}\n";
+  }
+  REQUIRE(n > 500);
+  testing::WriteFile(dir + "/a.jsonl", a);
+  testing::WriteFile(dir + "/b.jsonl", b);
+  RecordingSink sink;
+  IndexBuildOptions o;
+  o.text.ngram = 5;
+  o.shard_bits = 4;
+  o.threads = 2;
+  o.memory_budget = 64ull << 20;
+  o.progress = &sink;
+  IndexBuildStats st;
+  REQUIRE(BuildIndex(dir + "/idx", {dir + "/a.jsonl", dir + "/b.jsonl"}, o, &st).ok());
+  CHECK(st.records == n);
+  CHECK(st.skips.total() == 0);
+
+  uint64_t merging = 0, syncing = 0, last_done = 0;
+  for (const ProgressEvent& e : sink.events) {
+    INFO("phase " << e.phase << " units " << e.done_units << "/" << e.total_units);
+    if (e.phase == "merging") {
+      ++merging;
+      CHECK(e.total_units == 16);
+      CHECK(e.unit == "shards");
+      CHECK(e.done_units <= e.total_units);
+      CHECK(e.done_units >= last_done);  // never goes back within the phase
+      last_done = e.done_units;
+    } else {
+      CHECK(e.total_units == 0);
+      if (e.phase == "syncing") ++syncing;
+      if (e.phase == "reading") CHECK(e.done_bytes <= e.total_bytes);
+    }
+  }
+  CHECK(merging >= 1);  // the forced report at the start of the phase, at least
+  CHECK(syncing == 1);
+
+  // The merge command counts shards too.
+  testing::WriteFile(dir + "/c.jsonl", b);
+  REQUIRE(AddSegment(dir + "/idx", {dir + "/c.jsonl"}, o, &st).ok());
+  sink.events.clear();
+  IndexMergeOptions mo;
+  mo.threads = 2;
+  mo.progress = &sink;
+  IndexMergeStats ms;
+  REQUIRE(MergeSegments(dir + "/idx", mo, &ms).ok());
+  REQUIRE(ms.segments_in == 2);
+  bool merge_counted = false;
+  for (const ProgressEvent& e : sink.events) {
+    if (e.phase == "merging") {
+      CHECK(e.total_units == 16);
+      merge_counted = true;
+    } else {
+      CHECK(e.total_units == 0);
+      CHECK(e.total_bytes == 0);  // no "0 B of 16 B" from a shard count posing as bytes
+    }
+  }
+  CHECK(merge_counted);
+}
+
 }  // namespace tidemark
