@@ -19,6 +19,8 @@ class FaultyEnv : public Env {
   std::string fail_rename;  // a suffix of the rename target; empty: none fail
   bool fail_syncfs = false;
   int syncfs_calls = 0;
+  int syncdir_calls = 0;
+  int file_sync_calls = 0;  // WritableFile::Sync
 
   Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
                                                         FileOptions options) override {
@@ -31,6 +33,10 @@ class FaultyEnv : public Env {
       return Status::IOError("rename " + from + ": injected failure");
     }
     return Env::Rename(from, to);
+  }
+  Status SyncDir(const std::string& path) override {
+    ++syncdir_calls;
+    return Env::SyncDir(path);
   }
   Status SyncFilesystem(const std::string& path) override {
     ++syncfs_calls;
@@ -47,7 +53,10 @@ class FaultyEnv : public Env {
       env_->budget -= data.size();
       return f_->Append(data);
     }
-    Status Sync() override { return f_->Sync(); }
+    Status Sync() override {
+      ++env_->file_sync_calls;
+      return f_->Sync();
+    }
     Status Close() override { return f_->Close(); }
     uint64_t size() const override { return f_->size(); }
 

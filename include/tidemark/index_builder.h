@@ -51,6 +51,13 @@ struct IndexBuildOptions {
   /// it): less CPU per byte written and the corpus stays cached; the first probe
   /// then reads the index from disk. Same bytes either way.
   bool direct_writes = true;
+  /// Make the new files durable (one filesystem flush, then the manifest, each
+  /// fsync'ed) before the index is complete. false (`--no-sync`): skip every flush;
+  /// faster where flushing is slow (network filesystems, a disk with a large write
+  /// cache), and a crash of the process is still safe, but a power failure or OS
+  /// crash soon after may leave files short, which opening the index then reports:
+  /// rebuild it.
+  bool sync = true;
   /// OS seam; nullptr: Env::Default().
   Env* env = nullptr;
   /// Progress ("reading", "spilling", "merging"); may be nullptr.
@@ -100,6 +107,7 @@ struct IndexMergeOptions {
   int threads = 0;
   uint64_t memory_budget = 0;
   bool direct_writes = true;  ///< as IndexBuildOptions::direct_writes
+  bool sync = true;           ///< as IndexBuildOptions::sync
   Env* env = nullptr;
   ProgressSink* progress = nullptr;
 };

@@ -32,6 +32,7 @@ struct IndexFlags {
   bool strict = false;
   std::string temp_dir;
   bool cached_writes = false;
+  bool no_sync = false;
   bool show_shards = false;
   // Which text/read/layout flags were given (for `add`, which defaults to the index's).
   CLI::Option* o_shards = nullptr;
@@ -91,6 +92,7 @@ Result<IndexBuildOptions> OptionsFromFlags(const IndexFlags& f, const IndexManif
   o.threads = f.threads;
   o.temp_dir = f.temp_dir;
   o.direct_writes = !f.cached_writes;
+  o.sync = !f.no_sync;
   if (!f.memory.empty()) {
     TM_ASSIGN_OR_RETURN(o.memory_budget, ParseByteSize(f.memory));
     if (o.memory_budget == 0) return Status::InvalidArgument("--memory must be positive");
@@ -150,6 +152,7 @@ int RunMerge(const IndexFlags& f) {
   IndexMergeOptions o;
   o.threads = f.threads;
   o.direct_writes = !f.cached_writes;
+  o.sync = !f.no_sync;
   o.progress = &printer;
   if (!f.memory.empty()) {
     auto m = ParseByteSize(f.memory);
@@ -265,6 +268,11 @@ void AddCachedWritesFlag(CLI::App* sub, IndexFlags* f) {
                 "Write shard files through the page cache (default: around it, with "
                 "O_DIRECT where the filesystem allows; same bytes, less CPU, the corpus "
                 "stays cached)");
+  sub->add_flag("--no-sync", f->no_sync,
+                "Do not flush the new files to stable storage before finishing (faster on "
+                "network filesystems and slow disks; a crash of tidemark is still safe, but "
+                "after a power failure or OS crash soon after, the index may fail to open: "
+                "rebuild it then)");
 }
 
 void AddBuildFlags(CLI::App* sub, IndexFlags* f) {

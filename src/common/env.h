@@ -65,6 +65,34 @@ class Env {
   virtual Result<std::vector<std::string>> ListDir(const std::string& path);
 };
 
+/// An Env that forwards everything to `base` except the calls that make data durable
+/// (WritableFile::Sync and StartWriteback, SyncDir, SyncFilesystem), which succeed
+/// without doing anything. For outputs the user chose not to flush (`--no-sync`):
+/// renames stay atomic, so a crash of the process still leaves old or new files,
+/// never a mix; only a power failure or OS crash soon after can lose written data.
+class NoSyncEnv final : public Env {
+ public:
+  /// REQUIRES: `base` outlives this Env.
+  explicit NoSyncEnv(Env* base) : base_(base) {}
+  Result<std::unique_ptr<WritableFile>> NewWritableFile(const std::string& path,
+                                                        FileOptions options = {}) override;
+  Status Rename(const std::string& from, const std::string& to) override {
+    return base_->Rename(from, to);
+  }
+  Status RemoveFile(const std::string& path) override { return base_->RemoveFile(path); }
+  Status RemoveTree(const std::string& path) override { return base_->RemoveTree(path); }
+  Status CreateDirs(const std::string& path) override { return base_->CreateDirs(path); }
+  Status SyncDir(const std::string&) override { return Status::Ok(); }
+  Status SyncFilesystem(const std::string&) override { return Status::Ok(); }
+  bool FileExists(const std::string& path) override { return base_->FileExists(path); }
+  Result<std::vector<std::string>> ListDir(const std::string& path) override {
+    return base_->ListDir(path);
+  }
+
+ private:
+  Env* base_;
+};
+
 /// Reads a whole (small) file. Errors name the path.
 Result<std::string> ReadFileToString(const std::string& path);
 

@@ -206,6 +206,23 @@ Status HashFile(const std::string& path, uint64_t* out) {
   return Status::Ok();
 }
 
+// o.env (or Env::Default()), wrapped so that nothing is flushed when `sync` is false
+// (IndexBuildOptions::sync).
+class ChosenEnv {
+ public:
+  ChosenEnv(Env* env, bool sync)
+      : base_(env != nullptr ? env : Env::Default()), no_sync_(base_),
+        env_(sync ? base_ : &no_sync_) {}
+  ChosenEnv(const ChosenEnv&) = delete;
+  ChosenEnv& operator=(const ChosenEnv&) = delete;
+  Env* get() const { return env_; }
+
+ private:
+  Env* base_;
+  NoSyncEnv no_sync_;
+  Env* env_;
+};
+
 // Records the first error of many workers.
 class FirstError {
  public:
@@ -447,7 +464,8 @@ Status WriteSegment(SegmentJob& job, const IndexBuildOptions& o, const Feed& fee
                     IndexBuildStats* stats) {
   const auto t0 = Clock::now();
   const double cpu0 = ProcessCpuSeconds();
-  Env* env = o.env != nullptr ? o.env : Env::Default();
+  const ChosenEnv chosen(o.env, o.sync);
+  Env* env = chosen.get();
   const int threads = ResolveThreads(o.threads);
   const uint64_t budget = ResolveBudget(o.memory_budget);
   const uint64_t reserve = std::min(budget / 2, PipelineReserve(threads));
@@ -521,7 +539,8 @@ Status WriteSegment(SegmentJob& job, const IndexBuildOptions& o, const Feed& fee
 Status PrepareJob(const std::string& dir, const IndexBuildOptions& o, bool adding, SegmentJob* job,
                   DirLock* lock) {
   TM_RETURN_IF_ERROR(ValidateBuildOptions(o));
-  Env* env = o.env != nullptr ? o.env : Env::Default();
+  const ChosenEnv chosen(o.env, o.sync);
+  Env* env = chosen.get();
   job->dir = dir;
   job->temp_root = o.temp_dir.empty() ? dir : o.temp_dir;
   job->adding = adding;
@@ -782,7 +801,8 @@ Status BuildIndexFromDocuments(const std::string& dir,
 Status MergeSegments(const std::string& dir, const IndexMergeOptions& o, IndexMergeStats* stats) {
   const auto t0 = Clock::now();
   *stats = IndexMergeStats{};
-  Env* env = o.env != nullptr ? o.env : Env::Default();
+  const ChosenEnv chosen(o.env, o.sync);
+  Env* env = chosen.get();
   const int threads = ResolveThreads(o.threads);
   TM_ASSIGN_OR_RETURN(IndexManifest m, ReadManifest(dir));
   DirLock lock;
@@ -848,7 +868,8 @@ Status MergeIndexes(const std::string& out_dir, const std::vector<std::string>& 
   const auto t0 = Clock::now();
   *stats = IndexMergeStats{};
   if (inputs.empty()) return Status::InvalidArgument("no input indexes to merge");
-  Env* env = o.env != nullptr ? o.env : Env::Default();
+  const ChosenEnv chosen(o.env, o.sync);
+  Env* env = chosen.get();
   const int threads = ResolveThreads(o.threads);
   std::vector<IndexManifest> ms;
   for (const auto& in : inputs) {

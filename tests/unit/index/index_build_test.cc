@@ -141,7 +141,11 @@ TEST_CASE("index bytes do not depend on threads, memory budget or document order
   IndexBuildOptions cached = SmallOptions(2);
   cached.direct_writes = false;  // through the page cache instead of O_DIRECT
   REQUIRE(BuildIndexFromDocuments(base + "/cached", docs, cached, false, &st).ok());
+  IndexBuildOptions unsynced = SmallOptions(2);
+  unsynced.sync = false;  // --no-sync
+  REQUIRE(BuildIndexFromDocuments(base + "/nosync", docs, unsynced, false, &st).ok());
   const std::string a = IndexContentBytes(base + "/t1");
+  CHECK(a == IndexContentBytes(base + "/nosync"));
   CHECK(a == IndexContentBytes(base + "/t2"));
   CHECK(a == IndexContentBytes(base + "/tiny"));
   CHECK(a == IndexContentBytes(base + "/shuf"));
@@ -325,6 +329,45 @@ TEST_CASE("disk full or a failed rename leaves no index", "[index][faults]") {
   for (const auto& name : testing::ListTree(dir)) CHECK(name == "LOCK");
 }
 
+TEST_CASE("sync = false (--no-sync) flushes nothing; the default flushes before the manifest",
+          "[index][faults]") {
+  const auto docs = MakeDocuments(8, 400, 40, 5000);
+  const std::string base = testing::ScratchDir("nosync");
+  for (const bool sync : {true, false}) {
+    INFO("sync " << sync);
+    testing::FaultyEnv env;
+    IndexBuildOptions o = SmallOptions(2);
+    o.env = &env;
+    o.sync = sync;
+    const std::string dir = base + (sync ? "/synced" : "/unsynced");
+    IndexBuildStats st;
+    REQUIRE(BuildIndexFromDocuments(dir, docs, o, false, &st).ok());
+    REQUIRE(BuildIndexFromDocuments(dir, docs, o, true, &st).ok());  // a second segment
+    IndexMergeOptions mo;
+    mo.threads = 2;
+    mo.env = &env;
+    mo.sync = sync;
+    IndexMergeStats ms;
+    REQUIRE(MergeSegments(dir, mo, &ms).ok());
+    REQUIRE(ms.segments_in == 2);
+    if (sync) {
+      CHECK(env.syncfs_calls == 3);  // build, add, merge: one each
+      CHECK(env.syncdir_calls > 0);
+      CHECK(env.file_sync_calls > 0);  // the manifests
+    } else {
+      CHECK(env.syncfs_calls == 0);
+      CHECK(env.syncdir_calls == 0);
+      CHECK(env.file_sync_calls == 0);
+    }
+    auto idx = Index::Open(dir);
+    REQUIRE(idx.ok());
+    auto twice = docs;
+    twice.insert(twice.end(), docs.begin(), docs.end());
+    CheckAgainstReference(**idx, ReferenceCounts(twice));
+  }
+  CHECK(IndexContentBytes(base + "/synced") == IndexContentBytes(base + "/unsynced"));
+}
+
 TEST_CASE("a cancelled build leaves no index", "[index][faults]") {
   const auto docs = MakeDocuments(8, 300, 30, 5000);
   const std::string dir = testing::ScratchDir("cancel") + "/idx";
@@ -494,13 +537,11 @@ class RecordingSink final : public ProgressSink {
   std::mutex mu;
   std::vector<ProgressEvent> events;
 };
-}  // namespace
 
-TEST_CASE("progress: reading counts input bytes, merging counts shards, syncing neither",
-          "[index][progress]") {
-  // Two JSONL files of the lines of the GPL version 3 text that Debian's base-files
-  // ships (real text, split by line parity), so that reading has bytes to count.
-  const std::string dir = testing::ScratchDir("progress");
+// Writes the non-empty lines of the GPL version 3 text that Debian's base-files ships
+// (real text) as JSON Lines records, odd lines to dir/a.jsonl and even ones to
+// dir/b.jsonl; returns the number of records.
+size_t WriteGplJsonl(const std::string& dir) {
   const std::string gpl = testing::ReadFile("/usr/share/common-licenses/GPL-3");
   std::string a, b;
   size_t pos = 0, n = 0;
@@ -519,6 +560,14 @@ TEST_CASE("progress: reading counts input bytes, merging counts shards, syncing 
   REQUIRE(n > 500);
   testing::WriteFile(dir + "/a.jsonl", a);
   testing::WriteFile(dir + "/b.jsonl", b);
+  return n;
+}
+}  // namespace
+
+TEST_CASE("progress: reading counts input bytes, merging counts shards, syncing neither",
+          "[index][progress]") {
+  const std::string dir = testing::ScratchDir("progress");
+  const size_t n = WriteGplJsonl(dir);
   RecordingSink sink;
   IndexBuildOptions o;
   o.text.ngram = 5;
@@ -551,7 +600,7 @@ TEST_CASE("progress: reading counts input bytes, merging counts shards, syncing 
   CHECK(syncing == 1);
 
   // The merge command counts shards too.
-  testing::WriteFile(dir + "/c.jsonl", b);
+  testing::WriteFile(dir + "/c.jsonl", testing::ReadFile(dir + "/b.jsonl"));
   REQUIRE(AddSegment(dir + "/idx", {dir + "/c.jsonl"}, o, &st).ok());
   sink.events.clear();
   IndexMergeOptions mo;
@@ -571,6 +620,26 @@ TEST_CASE("progress: reading counts input bytes, merging counts shards, syncing 
     }
   }
   CHECK(merge_counted);
+}
+
+TEST_CASE("CLI: index build, add and merge with --no-sync make an index that verifies",
+          "[index][cli]") {
+  const std::string dir = testing::ScratchDir("cli_nosync");
+  WriteGplJsonl(dir);
+  const std::string cli = testing::CliPath() + " -q index ";
+  const std::string idx = dir + "/idx";
+  int rc = -1;
+  const std::string out =
+      testing::RunCommand(cli + "build --no-sync -n 5 -o " + idx + " " + dir + "/a.jsonl 2>&1 && " +
+                              cli + "add --no-sync " + idx + " " + dir + "/b.jsonl 2>&1 && " + cli +
+                              "merge --no-sync " + idx + " 2>&1 && " + cli + "verify " + idx + " 2>&1",
+                          &rc);
+  INFO(out);
+  CHECK(rc == 0);
+  auto m = ReadManifest(idx);
+  REQUIRE(m.ok());
+  CHECK(m->segments.size() == 1);
+  CHECK(m->records() > 500);
 }
 
 }  // namespace tidemark
