@@ -658,10 +658,7 @@ Status MergeShardFiles(const std::vector<std::vector<const ShardReader*>>& by_sh
     seg->ngrams_distinct += sh.keys;
     seg->bytes += sh.bytes;
   }
-  // The shard files were closed without an fsync each (BackgroundShardWriter).
-  progress->Report("syncing", true);
-  TM_RETURN_IF_ERROR(env->SyncFilesystem(staging));
-  return env->SyncDir(staging);
+  return SyncNewShards(env, staging, progress);
 }
 
 // The merged segment's corpus bookkeeping: union of files, sums.

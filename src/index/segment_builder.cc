@@ -395,11 +395,13 @@ Status SegmentBuilder::Finish(const std::string& staging_dir, int threads, Manif
     (void)env_->RemoveTree(run_dir_);
     run_dir_made_ = false;
   }
-  // The shard files were closed without an fsync each (BackgroundShardWriter); on a
-  // disk with a write cache this last flush can take seconds.
-  if (progress_ != nullptr) progress_->Report("syncing", true);
-  TM_RETURN_IF_ERROR(env_->SyncFilesystem(staging_dir));
-  return env_->SyncDir(staging_dir);
+  return SyncNewShards(env_, staging_dir, progress_);
+}
+
+Status SyncNewShards(Env* env, const std::string& dir, ProgressReporter* progress) {
+  if (progress != nullptr) progress->Report("syncing", true);
+  TM_RETURN_IF_ERROR(env->SyncFilesystem(dir));
+  return env->SyncDir(dir);
 }
 
 Status SegmentBuilder::FinishInMemory(const std::string& staging_dir, int conc_max,

@@ -61,6 +61,11 @@ class ProgressReporter {
   uint64_t total_units_ = 0;
 };
 
+/// Makes the shard files a BackgroundShardWriter wrote into `dir` (closed without an
+/// fsync each) durable: one filesystem flush, reported as phase "syncing" (on a disk
+/// with a write cache it can take seconds), then the directory's entries.
+Status SyncNewShards(Env* env, const std::string& dir, ProgressReporter* progress);
+
 class SegmentBuilder {
  public:
   /// `buffer_bytes` is split evenly across `workers`; runs go to `run_dir` (created
