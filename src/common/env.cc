@@ -327,9 +327,6 @@ Status SyncPath(const std::string& path, int flags, int (*sync)(int), const char
   if (rc != 0) return PosixError(path + ": " + what, err);
   return Status::Ok();
 }
-}  // namespace
-
-namespace {
 
 // A file of NoSyncEnv: writes go through, flushes do not.
 class NoSyncFile final : public WritableFile {

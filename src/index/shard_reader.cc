@@ -319,7 +319,8 @@ Status ShardReader::VerifyInvariants() const {
     }
   }
   for (uint64_t e = 0; e < count_ex_n_; ++e) {
-    if (fmt::LoadLE32(count_ex_ + e * 8 + 4) - 1 < cmask_) {  // (a count 0 wraps: caught here too)
+    // (A count of 0 wraps past every mask here; the per-key loop below reports it.)
+    if (fmt::LoadLE32(count_ex_ + e * 8 + 4) - 1 < cmask_) {
       return CorruptAt(path_, sections_[fmt::kSecCountExceptions].offset + e * 8,
                        "count exception that fits its code");
     }

@@ -147,10 +147,12 @@ class ShardWriter {
 /// figures below).
 /// At most `max_pending` images wait besides the `writers` being written; Submit
 /// blocks beyond that, bounding the memory held. The first error stops further writes
-/// and is returned by Finish. Two writers keep two files' writes in flight: on the
-/// third session's test VM, 256 files of 6.7 MB written by two threads went at
-/// 230-275 MB/s with an fdatasync each and 300-400 MB/s with one syncfs at the end
-/// (docs/performance.md, "Index build reworked").
+/// and is returned by Finish. Two writers keep two files' writes in flight. On the
+/// project's 2-core test VM, 256 files of 6.7 MB written by two threads went at
+/// 230-275 MB/s with an fdatasync each and 300-400 MB/s with one syncfs at the end;
+/// later, one thread against two, 4 or 8 MiB writes, with or without fallocate, all
+/// landed within the disk's run-to-run spread of 317-587 MB/s (docs/performance.md,
+/// "Index build reworked" and "The 2x build target against this machine's floors").
 class BackgroundShardWriter {
  public:
   static constexpr size_t kDefaultWriters = 2;
